@@ -18,6 +18,7 @@ import io
 import json
 import re
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import BinaryIO
 
@@ -62,6 +63,7 @@ _TS_RE = re.compile(
     r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
 )
 _TS_NO_OFFSET_RE = re.compile(r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?$")
+_NONBLANK_RE = re.compile(rb"[^\xef\xbb\xbf \t\r\n]")
 _ISO4406_RE = re.compile(r"^(?:-|>28|\d{1,2})/(?:>28|\d{1,2})/(?:>28|\d{1,2})$")
 _TS_HELP = "write ISO 8601 with an offset, e.g. 2026-03-02T10:00:00Z or 2026-03-02T12:00:00+02:00"
 
@@ -176,48 +178,50 @@ def parse_file(stream: BinaryIO | bytes, name: str) -> ParsedFile:
     """
     data = stream if isinstance(stream, bytes | bytearray) else stream.read()
     data = bytes(data)
-    out = ParsedFile(name=name, content_sha256=hashlib.sha256(data).hexdigest())
-    probs = _Problems(name)
-    text = _decode(data, probs)
-    if text is not None:
-        head = text.lstrip("\ufeff \t\r\n")
-        if head.startswith(("{", "[")):
-            _parse_json(text, probs, out)
-        else:
-            _parse_csv(data, head, probs, out)
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        # hashlib releases the GIL on large buffers: hash on the second core while parsing
+        digest = pool.submit(lambda: hashlib.sha256(data).hexdigest())
+        out = ParsedFile(name=name, content_sha256="")
+        probs = _Problems(name)
+        if _is_text(data, probs):
+            head = data[:65536].decode("utf-8", errors="ignore").lstrip("\ufeff \t\r\n")
+            if head.startswith(("{", "[")):
+                _parse_json(data.decode("utf-8-sig"), probs, out)
+            else:
+                _parse_csv(data, head, probs, out)
+        out.content_sha256 = digest.result()
     out.problems = probs.result()
     if out.problems:
         out.histograms, out.readings = [], []
     return out
 
 
-def _decode(data: bytes, probs: _Problems) -> str | None:
-    """The text of ``data`` (BOM removed), or None after recording why it is unusable."""
-    if data.isascii():
-        text = data.decode("ascii")
-    else:
+def _is_text(data: bytes, probs: _Problems) -> bool:
+    """True if ``data`` is non-blank UTF-8 text; else record why it is unusable."""
+    if not data.isascii():
         try:
-            text = data.decode("utf-8-sig")
+            data.decode("utf-8")
         except UnicodeDecodeError as e:
             line = data.count(b"\n", 0, e.start) + 1
+            bad = f"0x{data[e.start]:02x}"
             probs.add(
                 line,
                 None,
-                f"0x{data[e.start]:02x}",
-                f"file is not UTF-8 text (byte 0x{data[e.start]:02x} on line {line} is not "
-                "valid UTF-8): export it again as UTF-8, e.g. 'Save as -> CSV UTF-8' in a "
-                "spreadsheet program",
+                bad,
+                f"file is not UTF-8 text (byte {bad} on line {line} is not valid UTF-8): "
+                "export it again as UTF-8, e.g. 'Save as -> CSV UTF-8' in a spreadsheet "
+                "program",
             )
-            return None
-    if not text.strip("\ufeff \t\r\n"):
+            return False
+    if not _NONBLANK_RE.search(data[:65536]) and not _NONBLANK_RE.search(data):
         probs.add(
             None,
             None,
             None,
             "file is empty: expected a histogram CSV, a readings CSV or a JSON document",
         )
-        return None
-    return text
+        return False
+    return True
 
 
 # ---------------------------------------------------------------- CSV
@@ -319,7 +323,7 @@ def _read_frame(
 ) -> pd.DataFrame | None:
     """One ``read_csv`` of the file: numbers as float64 (fast path) or as text (fallback)."""
     names = [f"c{i}" for i in range(len(header))]
-    kinds = {f"c{i}": (str if lg in text_cols else "float64") for lg, (i, _) in cols.items()}
+    kinds = {f"c{i}": (object if lg in text_cols else "float64") for lg, (i, _) in cols.items()}
     kw = dict(
         sep=sep,
         decimal="," if sep == ";" else ".",
@@ -332,13 +336,18 @@ def _read_frame(
         engine="c",
         encoding="utf-8-sig",
     )
+    floats = {c: k for c, k in kinds.items() if k != object}
     try:
         try:
-            return pd.read_csv(io.BytesIO(data), dtype=kinds, **kw)
+            # fast path: numbers as float64, text inferred (explicit text dtypes are slow)
+            frame = pd.read_csv(io.BytesIO(data), dtype=floats, **kw)
+            if all(pd.api.types.is_string_dtype(frame[c]) for c in kinds if c not in floats):
+                return frame
+            return pd.read_csv(io.BytesIO(data), dtype=kinds, **kw)  # e.g. tag "0042"
         except ValueError as e:
             if isinstance(e, pd.errors.ParserError):
                 raise
-            return pd.read_csv(io.BytesIO(data), dtype=str, **kw)
+            return pd.read_csv(io.BytesIO(data), dtype=object, **kw)
     except pd.errors.ParserError as e:
         m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
         if m:
@@ -367,6 +376,18 @@ def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
     return vals, bad
 
 
+def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Codes and uniques of text values; blanks around values and missing cells -> ""."""
+    codes, uniq = pd.factorize(values)
+    clean = np.array([str(u).strip() for u in uniq] + [""], dtype=object)
+    codes = np.asarray(codes, dtype=np.int64)
+    codes[codes < 0] = len(uniq)
+    remap, uniq2 = pd.factorize(clean)
+    if len(uniq2) < len(clean):
+        return remap[codes], np.asarray(uniq2, dtype=object)
+    return codes, clean
+
+
 def _csv_table(
     frame: pd.DataFrame,
     header: list[str],
@@ -382,10 +403,7 @@ def _csv_table(
     for lg, (i, u) in cols.items():
         col = frame[f"c{i}"]
         if lg in text_cols:
-            s = col.str.strip()
-            codes, uniq = pd.factorize(s, use_na_sentinel=False)
-            uniq = np.asarray(uniq, dtype=object)
-            uniq[pd.isna(uniq)] = ""
+            codes, uniq = _factorize_stripped(col)
             text[lg] = (codes, uniq)
             blank &= (uniq == "")[codes]
             continue
