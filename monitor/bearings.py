@@ -69,6 +69,12 @@ Source: ISO 281:2007, table of guide values for the contamination factor eC
 (pitch diameter below 100 mm / 100 mm and above).
 """
 
+REFERENCE_KAPPA = 1.0
+"""Viscosity ratio of the reference oil condition for :func:`oil_life_factor` [-]."""
+
+REFERENCE_CLEANLINESS = "normal"
+"""ISO 281 cleanliness level of the reference oil condition for :func:`oil_life_factor`."""
+
 ISO4406_CLEANLINESS_MAP = (
     (10, "high"),
     (12, "normal"),
@@ -443,3 +449,96 @@ def contamination_factor_from_iso4406(
     """
     level = cleanliness_level_from_iso4406(code, mapping=mapping)
     return contamination_factor(level, pitch_diameter_mm, position=position)
+
+
+def _per_upload_like(value: object, shape: tuple) -> np.ndarray:
+    """Scalar, (N,) per upload, or an array that broadcasts with ``shape``."""
+    v = np.asarray(value, dtype=float)
+    if v.ndim == 1 and len(shape) > 1 and v.shape[0] == shape[0]:
+        return v.reshape((shape[0],) + (1,) * (len(shape) - 1))
+    return v
+
+
+def oil_life_factor(
+    dp_bar: np.ndarray,
+    speed_rpm: np.ndarray,
+    *,
+    bearing_type: str,
+    pitch_diameter_mm: float,
+    fatigue_limit_kn: float,
+    load_at_rated_kn: float,
+    rated_dp_bar: float,
+    viscosity_mm2s: float | np.ndarray,
+    contamination_ec: float | np.ndarray,
+    reference_kappa: float = REFERENCE_KAPPA,
+    reference_ec: float | None = None,
+) -> np.ndarray:
+    """Oil-condition life factor a_oil per band, relative to the reference condition.
+
+    Parameters
+    ----------
+    dp_bar, speed_rpm : array
+        Band differential pressure [bar] and speed [rpm], e.g. from
+        :func:`monitor.spectrum.band_conditions_1d`.
+    bearing_type : {"ball", "roller"}
+        Radial ball or radial roller bearing.
+    pitch_diameter_mm : float
+        Bearing pitch diameter dm [mm].
+    fatigue_limit_kn : float
+        Fatigue load limit Cu [kN].
+    load_at_rated_kn : float
+        Equivalent bearing load at the rated pressure P_R [kN].
+    rated_dp_bar : float
+        Rated differential pressure dp_R [bar].
+    viscosity_mm2s : float or array
+        Oil viscosity at operating temperature [mm2/s]: scalar, per upload (N,), or
+        broadcasting with ``dp_bar``.
+    contamination_ec : float or array
+        Contamination factor eC of the oil as sampled [-], same shapes as above.
+    reference_kappa : float, default 1.0
+        Viscosity ratio of the reference condition [-].
+    reference_ec : float, optional
+        eC of the reference condition [-]; default the middle of the ISO 281 guide
+        range for "normal" cleanliness at this pitch diameter (0.55 below 100 mm).
+
+    Returns
+    -------
+    numpy.ndarray
+        a_oil [-], broadcast shape; 1.0 at the rated point in the reference condition.
+        ``nan`` where kappa is below 0.1 (outside the ISO 281 method), e.g. at zero
+        speed; callers should treat such bands as unknown, not as undamaged.
+
+    Notes
+    -----
+    ``a_oil = aISO(kappa_i, eC Cu / P_i) / aISO(kappa_ref, eC_ref Cu / P_R)`` with
+    ``P_i = P_R dp_i / dp_R`` and ``kappa_i = nu / nu1(n_i, dm)``. The maker's rated life
+    is assumed to hold in the reference condition (kappa 1, normal cleanliness).
+
+    References
+    ----------
+    ISO 281:2007, clause 6.3 (aISO, kappa, eC); design brief, "Life model v1".
+    """
+    for name, value in (
+        ("pitch_diameter_mm", pitch_diameter_mm),
+        ("fatigue_limit_kn", fatigue_limit_kn),
+        ("load_at_rated_kn", load_at_rated_kn),
+        ("rated_dp_bar", rated_dp_bar),
+        ("reference_kappa", reference_kappa),
+    ):
+        if not (np.isfinite(value) and value > 0):
+            raise ValueError(f"{name} must be a finite number > 0, got {value!r}")
+    dp = np.asarray(dp_bar, dtype=float)
+    ref_ec = (
+        contamination_factor(REFERENCE_CLEANLINESS, pitch_diameter_mm)
+        if (reference_ec is None)
+        else reference_ec
+    )
+    ref = life_modification_factor(
+        reference_kappa, ref_ec * fatigue_limit_kn / load_at_rated_kn, bearing_type
+    )
+    nu = _per_upload_like(viscosity_mm2s, dp.shape)
+    ec = _per_upload_like(contamination_ec, dp.shape)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        kappa = viscosity_ratio(nu, rated_viscosity_mm2s(speed_rpm, pitch_diameter_mm))
+        x = ec * fatigue_limit_kn / (load_at_rated_kn * dp / rated_dp_bar)
+    return life_modification_factor(kappa, x, bearing_type) / ref

@@ -11,28 +11,10 @@ import math
 import numpy as np
 from scipy.optimize import brentq
 
-ISO_VG_GRADES = (
-    2,
-    3,
-    5,
-    7,
-    10,
-    15,
-    22,
-    32,
-    46,
-    68,
-    100,
-    150,
-    220,
-    320,
-    460,
-    680,
-    1000,
-    1500,
-    2200,
-    3200,
-)
+# fmt: off
+ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500,
+                 2200, 3200)
+# fmt: on
 """ISO viscosity grades: midpoint kinematic viscosity at 40 degC [mm2/s].
 
 Source: ISO 3448:1992, Industrial liquid lubricants - ISO viscosity classification,
