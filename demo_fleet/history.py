@@ -1,0 +1,261 @@
+"""Day-by-day history of one demo unit: engine hours, logged spectra, damage, rebuilds.
+
+Everything is vectorised over the days of the window; only the rebuild schedule is a
+short loop over events (a few per unit at most).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from demo_fleet import duty
+from demo_fleet.scenario import (
+    MODELS_BY_NAME,
+    NEAR_END_POSITION,
+    REBUILT_RECENTLY_POSITION,
+    UnitPlan,
+)
+
+HOURS_FACTOR = {"crawler dozer": 0.85, "trencher": 0.8, "tracked dumper": 0.9}
+"""Engine hours of a machine type relative to its site's typical day [-]."""
+
+REBUILD_DAMAGE = (0.75, 1.0)
+"""Consumed bearing life at which the shop rebuilds a component [-] (invented policy)."""
+REBUILD_WEAR = 0.95
+"""Share of the case-drain limit at which the shop rebuilds a component [-]."""
+COMPANION_DAMAGE = 0.6
+"""A second loop past this consumed life is rebuilt in the same downtime [-]."""
+WEAR_EXPONENT = 1.3
+"""Normalised leakage grows as new * offset * (1 + w ** WEAR_EXPONENT) [-]."""
+
+
+@dataclass
+class PositionHistory:
+    """One drive position of a unit over the window.
+
+    ``counts`` are ticks of 0.01 h per pressure band (days, K) or per pressure x speed
+    cell (days, K, S); ``speed_rpm`` the day's mean speed [rpm] (None for a matrix).
+    """
+
+    position: str
+    model: dict
+    quantity: str
+    counts: np.ndarray
+    speed_rpm: np.ndarray | None
+    wear_life_h: float
+    serial: str
+    damage: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    wear_mult: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    offsets: list[float] = field(default_factory=list)
+
+
+@dataclass
+class Event:
+    """A rebuild or exchange of one position on day index ``day`` at ``hour`` UTC."""
+
+    position: str
+    day: int
+    kind: str
+    hour: int
+
+
+@dataclass
+class UnitHistory:
+    """Everything generated for one unit."""
+
+    plan: UnitPlan
+    tenths: np.ndarray
+    meter0_tenths: int
+    positions: list[PositionHistory]
+    events: list[Event]
+    upload: np.ndarray
+    contamination: tuple[int, int] | None = None
+
+    def meter_start_tenths(self) -> np.ndarray:
+        """Hour meter at the start of each day [0.1 h]."""
+        return self.meter0_tenths + np.concatenate(([0], np.cumsum(self.tenths)[:-1]))
+
+
+def _damage(pos: PositionHistory) -> np.ndarray:
+    """Miner damage of each day [-] with life model v1 (band midpoints)."""
+    model = pos.model
+    hours = pos.counts / 100.0
+    if pos.quantity == "pressure":
+        per_hour = duty.damage_per_hour(model, pos.speed_rpm / model["rated_speed_rpm"])
+        return np.einsum("dk,dk->d", hours, per_hour)
+    per_hour = duty.damage_per_hour(model, duty.SPEED_MID_RPM / model["rated_speed_rpm"])
+    return np.einsum("dks,sk->d", hours, per_hour)
+
+
+def _spectra(plan: UnitPlan, rng: np.random.Generator, tenths: np.ndarray) -> list:
+    """Draw each position's daily spectrum; motors share their loop's pressure counts."""
+    out: list[PositionHistory] = []
+    n = tenths.size
+    lo_life, hi_life = plan.machine.target_life_h
+    loop_counts = None
+    for position, model_name, duty_name, speed_kind in plan.machine.positions:
+        model = MODELS_BY_NAME[model_name]
+        serial = f"S{int(rng.integers(100000, 999999))}"
+        wear_life = float(rng.uniform(*plan.machine.wear_life_h))
+        if speed_kind == "motor_matrix":
+            share = rng.dirichlet(60.0 * duty.SPEED_SHARE, n)
+            pvals = np.broadcast_to(share[:, None, :], loop_counts.shape + share.shape[-1:])
+            counts = rng.multinomial(loop_counts, pvals).astype(np.int64)
+            out.append(
+                PositionHistory(position, model, "pressure_speed", counts, None, wear_life, serial)
+            )
+            continue
+        speed = duty.daily_speed(rng, speed_kind, n)
+        if speed_kind != "motor":
+            working, (lo_share, hi_share) = duty.DUTIES[duty_name]
+            share = rng.uniform(lo_share, hi_share)
+            if plan.story == "stalling_loader":
+                share = duty.STALL_SHARE
+            ratio = float(np.mean(speed)) / model["rated_speed_rpm"]
+            target = rng.uniform(lo_life, hi_life)
+            scale = duty.calibrate_scale(working, share, model, ratio, target)
+            probs = duty.band_probabilities(working, scale, share, model)
+            loop_counts = duty.daily_band_hours(rng, probs, tenths * 10)
+        out.append(
+            PositionHistory(position, model, "pressure", loop_counts, speed, wear_life, serial)
+        )
+    return out
+
+
+def _wear_state(pos: PositionHistory, tenths: np.ndarray, start: int) -> np.ndarray:
+    """Wear variable w at the start of each day from ``start`` on [-]."""
+    rate = tenths[start:] / 10.0 * pos.wear_mult[start:] / pos.wear_life_h
+    return np.concatenate(([0.0], np.cumsum(rate)[:-1]))
+
+
+def _trigger(pos: PositionHistory, tenths: np.ndarray, start: int, threshold: float) -> int:
+    """First day index from ``start`` on where damage or wear calls for a rebuild, or -1."""
+    cum = np.cumsum(pos.damage[start:])
+    i_dmg = int(np.searchsorted(cum, threshold))
+    q_ratio = pos.offsets[-1] * (1.0 + _wear_state(pos, tenths, start) ** WEAR_EXPONENT)
+    limit = pos.model["case_drain"]["limit_factor"] * REBUILD_WEAR
+    over = np.flatnonzero(q_ratio >= limit)
+    i_wear = int(over[0]) if over.size else cum.size
+    first = min(i_dmg, i_wear)
+    return start + first if first < cum.size else -1
+
+
+def _apply_downtime(hist: UnitHistory, first: int, days: int) -> None:
+    """Zero the unit's hours (all positions) for ``days`` days from ``first``."""
+    sl = slice(first, first + days)
+    hist.tenths[sl] = 0
+    for pos in hist.positions:
+        pos.counts[sl] = 0
+        pos.damage[sl] = 0.0
+
+
+def _rebuild(
+    hist: UnitHistory,
+    rng: np.random.Generator,
+    pos: PositionHistory,
+    day: int,
+    life_start: dict[str, int],
+) -> None:
+    kind = "replacement" if rng.random() < 0.35 else "rebuild"
+    if kind == "replacement":
+        pos.serial = f"S{int(rng.integers(100000, 999999))}"
+    hist.events.append(Event(pos.position, day, kind, int(rng.integers(10, 16))))
+    pos.offsets.append(float(rng.uniform(0.9, 1.15)))
+    life_start[pos.position] = day
+
+
+def schedule_rebuilds(
+    hist: UnitHistory, rng: np.random.Generator, auto_until: int, forced: list[tuple[int, str]]
+) -> None:
+    """Rebuild components as the shop would: when consumed life or case drain calls for it.
+
+    Auto rebuilds are planned 2-8 days after the trigger, stop the machine 1-3 days, and
+    take along another loop that is past ``COMPANION_DAMAGE``; ``forced`` (day, position)
+    events are story rebuilds on given days (one day downtime).
+    """
+    n = hist.tenths.size
+    life_start = {p.position: 0 for p in hist.positions}
+    thresholds = {p.position: float(rng.uniform(*REBUILD_DAMAGE)) for p in hist.positions}
+    forced = sorted(forced)
+    last = -1
+    while True:
+        cands = []
+        for pos in hist.positions:
+            t = _trigger(pos, hist.tenths, life_start[pos.position], thresholds[pos.position])
+            if 0 <= t < auto_until:
+                cands.append((max(t + int(rng.integers(2, 9)), last + 1), pos.position, False))
+        cands += [(d, p, True) for d, p in forced if d > last]
+        if not cands:
+            return
+        day, position, is_forced = min(cands)
+        if day >= n:
+            return
+        _apply_downtime(hist, day, 1 if is_forced else int(rng.integers(1, 4)))
+        by_name = {p.position: p for p in hist.positions}
+        _rebuild(hist, rng, by_name[position], day, life_start)
+        for other in hist.positions:
+            consumed = other.damage[life_start[other.position] : day].sum()
+            if other.position != position and consumed > COMPANION_DAMAGE and not is_forced:
+                _rebuild(hist, rng, other, day, life_start)
+        thresholds = {p.position: float(rng.uniform(*REBUILD_DAMAGE)) for p in hist.positions}
+        last = day
+
+
+def near_end_rebuild_day(pos: PositionHistory, consumed: float) -> int | None:
+    """Latest day whose following days add up to at least ``consumed`` damage [-]."""
+    suffix = np.cumsum(pos.damage[::-1])[::-1]  # suffix[d] = damage of days d..end
+    after = np.concatenate((suffix[1:], [0.0]))  # damage after day d
+    ok = np.flatnonzero(after >= consumed)
+    return int(ok[-1]) if ok.size else None
+
+
+def simulate_unit(
+    plan: UnitPlan, seed: int, days: np.ndarray, saturdays: np.ndarray, meter0_tenths: int
+) -> UnitHistory:
+    """Generate the whole history of one unit (deterministic for ``seed`` and ``plan``)."""
+    rng = np.random.default_rng([seed, plan.index])
+    n = days.size
+    tenths = duty.unit_daily_tenths(
+        rng, days, plan.site.calendar, saturdays, HOURS_FACTOR.get(plan.machine.name, 1.0)
+    )
+    positions = _spectra(plan, rng, tenths)
+    hist = UnitHistory(plan, tenths, meter0_tenths, positions, [], np.ones(n, dtype=bool))
+    for pos in positions:
+        pos.damage = _damage(pos)
+        pos.wear_mult = np.ones(n)
+        pos.offsets = [float(rng.uniform(0.9, 1.15))]
+    forced: list[tuple[int, str]] = []
+    auto_until = n
+    if plan.story in ("near_end_conveyor", "contaminated"):
+        auto_until = 0
+    if plan.story == "near_end_conveyor":
+        pos = next(p for p in positions if p.position == NEAR_END_POSITION)
+        day = near_end_rebuild_day(pos, consumed=0.935)
+        forced = [] if day is None else [(day, NEAR_END_POSITION)]
+    if plan.story == "rebuilt_recently":
+        forced = [(max(0, n - 30), REBUILT_RECENTLY_POSITION)]
+        auto_until = max(0, n - 300)
+    if plan.story == "contaminated":
+        onset = max(1, n - min(450, n // 2))
+        hist.contamination = (onset, min(n, onset + 56))
+        for pos in positions:
+            pos.wear_mult[onset:] = 6.0
+    schedule_rebuilds(hist, rng, auto_until, forced)
+    if plan.story == "contaminated":
+        _calibrate_contaminated(hist)
+    if plan.story == "silent":
+        hist.upload[max(0, n - 42) :] = False
+    return hist
+
+
+def _calibrate_contaminated(hist: UnitHistory) -> None:
+    """Set the wear life so the normalised drain ends at 90 % / 85 % of the limit."""
+    for pos, end_share in zip(hist.positions, (0.90, 0.85), strict=False):
+        pos.offsets = [1.0]
+        target_w = (end_share * pos.model["case_drain"]["limit_factor"] - 1.0) ** (
+            1.0 / WEAR_EXPONENT
+        )
+        exposure = float(np.sum(hist.tenths / 10.0 * pos.wear_mult))
+        pos.wear_life_h = exposure / target_w
