@@ -372,7 +372,9 @@ def _split_if_never_fits(
         else f"one week has room for only {room} rebuild(s)"
     )
     note = f"Not combined with the other loop(s) of the unit: {why} for one joint downtime."
-    return [_downtime(comp, [i], note) for i in members]
+    end_days = 7 * settings.horizon_weeks
+    due = [i for i in members if comp.at[i, "due_days"] < end_days]  # NaN compares False
+    return [_downtime(comp, [i], note) for i in due]
 
 
 def _downtimes(comp: pd.DataFrame, settings: PlanSettings) -> list[_Downtime]:

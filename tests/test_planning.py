@@ -465,3 +465,12 @@ def test_larger_fleet_every_component_accounted_for():
     plan = plan_rebuilds(fleet(*rows), AS_OF, horizon_weeks=12, capacity_per_week=10)
     total = len(plan.assignments) + len(plan.unplanned) + plan.beyond_horizon
     assert total == 400
+
+
+def test_split_pair_leaves_a_partner_due_after_the_horizon_unplanned():
+    # capacity 1 cannot hold the pair; the partner is due after the 1-week horizon, so
+    # only the due loop is planned and the partner is counted after the horizon
+    f = fleet(comp("P-1", "left", days=0, rem=0), comp("P-1", "right", days=10, rem=100))
+    plan = plan_rebuilds(f, AS_OF, horizon_weeks=1, capacity_per_week=1)
+    assert weeks_of(plan) == {("P-1", "left"): 0}
+    assert plan.beyond_horizon == 1 and plan.unplanned.empty
