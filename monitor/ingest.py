@@ -134,6 +134,7 @@ class _Table:
     unit: dict[str, str]
     where: Callable[[int, str], tuple[int | None, str]]
     line0: np.ndarray | None = None  # CSV: source line of each row
+    labels: dict[str, str] = field(default_factory=dict)  # column -> name in the file
 
     def locate(self, r: int, f: str) -> tuple[int | None, str]:
         return self.where(r, f)
@@ -423,6 +424,7 @@ def _csv_table(
     names = {lg: header[i] for lg, (i, _) in cols.items()}
     t = _Table(len(lines), text, num, raw, unit, lambda r, f: (int(lines[r]), names.get(f, f)))
     t.line0 = lines
+    t.labels = names
     for lg, bad in notnum.items():
         rows = np.flatnonzero(bad)
         if rows.size:
@@ -501,7 +503,7 @@ def _check_numbers(
         inf = np.isinf(v)
         low = (v < minimum) & ~inf
         rng = U.out_of_range(v, kind) & ~low & ~inf if kind else np.zeros(len(v), bool)
-    label = t.locate(0, f)[1] if t.n else f
+    label = t.labels.get(f, f)
     what = f"a number >= {_fmt(minimum)}"
     if missing.any():
         probs.add_rows(np.flatnonzero(missing), f, t, f"`{label}` is missing: expected {what}")
@@ -942,8 +944,6 @@ def _parse_json(text: str, probs: _Problems, out: ParsedFile) -> None:
             probs.add(None, prefix[d] or "$", None, "expected a JSON object `{...}` per upload")
             continue
         _json_doc(item, prefix[d], bands, reads, probs)
-    if probs:
-        return
     if bands.n:
         out.histograms = _histograms(bands.table(HIST_TEXT), probs)
     if reads.n:
@@ -991,7 +991,15 @@ class _Rows:
                 raw[f] = np.array([np.nan if v is None else v for v in self.raw[f]], dtype=float)
                 unit[f] = np.array(self.units[f], dtype=object)
         paths = self.paths
-        return _Table(self.n, text, num, raw, unit, lambda r, f: (None, paths[f][r]))
+        return _Table(
+            self.n,
+            text,
+            num,
+            raw,
+            unit,
+            lambda r, f: (None, paths[f][r] if f in paths else f),
+            labels=dict(_JSON_FIELD),
+        )
 
 
 def _check_keys(obj: dict, known: tuple[str, ...], path: str, probs: _Problems) -> None:
@@ -999,7 +1007,7 @@ def _check_keys(obj: dict, known: tuple[str, ...], path: str, probs: _Problems) 
         if k not in known:
             probs.add(
                 None,
-                f"{path}.{k}",
+                f"{path}.{k}" if path else k,
                 None,
                 f"unknown field `{k}`: known fields are {', '.join(known)}",
             )
@@ -1026,23 +1034,24 @@ def _json_unit(obj: dict, key: str, kind: str, path: str, probs: _Problems) -> s
 
 
 def _json_doc(item: dict, p: str, bands: _Rows, reads: _Rows, probs: _Problems) -> None:
+    dot = "." if p else ""
     _check_keys(item, DOC_KEYS, p, probs)
     hists, rdgs = item.get("histograms") or [], item.get("readings") or []
     if not isinstance(item.get("unit"), str):
-        probs.add(None, f"{p}.unit", None, "`unit` is missing: expected the unit tag as text")
-    common = {"unit": (item.get("unit"), None, None, f"{p}.unit")}
+        probs.add(None, f"{p}{dot}unit", None, "`unit` is missing: expected the unit tag as text")
+    common = {"unit": (item.get("unit"), None, None, f"{p}{dot}unit")}
     if hists:
         for k in ("period_start", "period_end"):
-            common[k] = (item.get(k), None, None, f"{p}.{k}")
+            common[k] = (item.get(k), None, None, f"{p}{dot}{k}")
         for k in ("hour_meter_start", "hour_meter_end"):
             v = _json_num(item, k, p, probs, required=True)
-            common[k] = (v, v, "", f"{p}.{k}")
+            common[k] = (v, v, "", f"{p}{dot}{k}")
     for key, lst, fn in (("histograms", hists, _json_hist), ("readings", rdgs, _json_reading)):
         if not isinstance(lst, list):
-            probs.add(None, f"{p}.{key}", None, f"`{key}` must be a list")
+            probs.add(None, f"{p}{dot}{key}", None, f"`{key}` must be a list")
             continue
         for i, obj in enumerate(lst):
-            path = f"{p}.{key}[{i}]"
+            path = f"{p}{dot}{key}[{i}]"
             if not isinstance(obj, dict):
                 probs.add(None, path, None, "expected a JSON object `{...}`")
             else:
