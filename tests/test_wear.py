@@ -1,0 +1,138 @@
+"""Tests of monitor.wear: normalisation law, Theil-Sen against scipy, remaining hours."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+from scipy import stats
+
+from monitor import oil, wear
+
+VG46 = oil.oil_line_from_spec(iso_vg=46, viscosity_index=100)
+
+
+def test_normalisation_law_reference():
+    # REFERENCES §6: Q_ref = Q (dp_ref/dp) (nu/nu_ref); VG 46 VI 100 viscosities from
+    # REFERENCES §4: nu80 = 11.050, nu60 = 20.562 mm2/s (computed, +-0.5 %).
+    # Reading 2.0 L/min at 200 bar and 80 degC, reference 250 bar and 60 degC.
+    q = wear.normalise_case_drain_lpm(
+        2.0, 200.0, 80.0, ref_dp_bar=250.0, ref_temp_c=60.0, oil_line=VG46
+    )
+    assert float(q) == pytest.approx(2.0 * 250 / 200 * 11.050 / 20.562, rel=5e-3)
+
+
+def test_normalisation_identity_flushing_and_missing_conditions():
+    kw = dict(ref_dp_bar=250.0, ref_temp_c=50.0, oil_line=VG46, flushing_lpm=0.5)
+    q = wear.normalise_case_drain_lpm(
+        np.array([2.0, 2.0, 2.0, 2.0]),
+        np.array([250.0, np.nan, 125.0, np.nan]),
+        np.array([50.0, np.nan, np.nan, 50.0]),
+        **kw,
+    )
+    # at reference conditions: flow less flushing; without conditions: as is, less flushing
+    np.testing.assert_allclose(q, [1.5, 1.5, 3.0, 1.5], rtol=1e-12)
+    # no reference conditions in the model: readings used as they are
+    raw = wear.normalise_case_drain_lpm(
+        2.0, 100.0, 80.0, ref_dp_bar=None, ref_temp_c=None, oil_line=None
+    )
+    assert float(raw) == 2.0
+    # hotter oil is thinner and leaks more: normalising to a cooler reference lowers it
+    hot = wear.normalise_case_drain_lpm(2.0, 250.0, 70.0, **kw)
+    assert float(hot) < 1.5
+    with pytest.raises(ValueError, match="test_dp_bar must be > 0 bar"):
+        wear.normalise_case_drain_lpm(2.0, 0.0, 50.0, **kw)
+
+
+def test_clearance_ratio():
+    # REFERENCES §6: doubling leakage means the gap grew by 2^(1/3) = 1.26
+    assert float(wear.clearance_ratio(2.0)) == pytest.approx(1.26, abs=0.005)
+    assert np.isnan(wear.clearance_ratio(-1.0))
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_theil_sen_matches_scipy(seed):
+    # Oracle: scipy.stats.theilslopes (Sen 1968 interval), on data with and without ties
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(3, 40))
+    x = rng.uniform(0, 3000, n) if seed % 2 else rng.integers(0, 10, n).astype(float) * 100
+    y = 1.5 + 4e-4 * x + rng.normal(0, 0.2, n)
+    if seed % 4 == 0:
+        y = np.round(y, 1)  # ties in y
+    if np.unique(x).size < 2:
+        x[0] += 1.0
+    ref = stats.theilslopes(y, x, alpha=0.95, method="separate")
+    got = wear.theil_sen(x, y, alpha=0.95)
+    np.testing.assert_allclose(
+        got, [ref.slope, ref.intercept, ref.low_slope, ref.high_slope], rtol=1e-12, atol=1e-15
+    )
+    ref90 = stats.theilslopes(y, x, alpha=0.90)
+    got90 = wear.theil_sen(x, y, alpha=0.90)
+    assert got90[2:] == pytest.approx((ref90.low_slope, ref90.high_slope), rel=1e-12)
+
+
+def test_theil_sen_errors():
+    with pytest.raises(ValueError, match="at least two distinct values"):
+        wear.theil_sen(np.ones(4), np.arange(4.0))
+    with pytest.raises(ValueError, match="equal length >= 2"):
+        wear.theil_sen(np.ones(1), np.ones(1))
+    with pytest.raises(ValueError, match="must be finite"):
+        wear.theil_sen(np.array([0.0, 1.0, np.nan]), np.ones(3))
+
+
+def test_trend_remaining_hours_hand_computed():
+    # Exact line Q = 1.0 + 0.001 H, limit 3.0 L/min, now at H = 1000 -> level 2.0,
+    # remaining (3.0 - 2.0) / 0.001 = 1000 h (hand-computed); exact data: zero-width interval
+    h = np.array([0.0, 250.0, 500.0, 750.0, 1000.0])
+    t = wear.case_drain_trend(h, 1.0 + 0.001 * h, limit_lpm=3.0)
+    assert t.n == 5
+    assert t.slope == pytest.approx(0.001) and t.intercept == pytest.approx(1.0)
+    assert t.level_now == pytest.approx(2.0)
+    assert t.remaining_h == pytest.approx(1000.0)
+    assert t.remaining_h_low == pytest.approx(1000.0) and t.remaining_h_high == pytest.approx(
+        1000.0
+    )
+    later = wear.case_drain_trend(h, 1.0 + 0.001 * h, limit_lpm=3.0, hour_meter_now_h=1500.0)
+    assert later.remaining_h == pytest.approx(500.0)
+
+
+def test_trend_interval_orders_remaining_hours():
+    rng = np.random.default_rng(11)
+    h = np.sort(rng.uniform(0, 2000, 25))
+    q = 1.2 + 5e-4 * h + rng.normal(0, 0.05, 25)
+    t = wear.case_drain_trend(h, q, limit_lpm=2.8)
+    assert t.slope_low <= t.slope <= t.slope_high
+    assert t.remaining_h_low <= t.remaining_h <= t.remaining_h_high
+    assert t.remaining_h == pytest.approx((2.8 - t.level_now) / t.slope)
+
+
+def test_trend_edges():
+    # fewer than three readings (after dropping nan): no estimate
+    t = wear.case_drain_trend([0.0, 100.0, np.nan], [1.0, 1.1, 1.2], limit_lpm=3.0)
+    assert t.n == 2 and math.isnan(t.slope) and math.isnan(t.remaining_h)
+    assert wear.case_drain_trend([], [], limit_lpm=3.0).n == 0
+    # flat or falling: no estimate
+    flat = wear.case_drain_trend([0.0, 100.0, 200.0], [1.0, 1.0, 1.0], limit_lpm=3.0)
+    assert flat.slope == 0.0 and math.isnan(flat.remaining_h)
+    # past the limit: 0 h, whatever the slope
+    past = wear.case_drain_trend([0.0, 100.0, 200.0], [3.5, 3.4, 3.3], limit_lpm=3.0)
+    assert past.remaining_h == 0.0 and past.remaining_h_high == 0.0
+    # rising, but lower slope bound not positive: upper end of the range unbounded
+    noisy = wear.case_drain_trend([0.0, 100.0, 200.0, 300.0], [1.0, 1.3, 1.0, 1.4], limit_lpm=3.0)
+    assert noisy.slope > 0 and noisy.slope_low <= 0 and math.isinf(noisy.remaining_h_high)
+    with pytest.raises(ValueError, match="limit_lpm must be a flow > 0"):
+        wear.case_drain_trend([0.0, 1.0, 2.0], [1.0, 1.0, 1.0], limit_lpm=0.0)
+
+
+@given(st.floats(1e-5, 1e-2), st.floats(0.5, 3.0), st.floats(0.1, 10.0))
+def test_trend_scales_with_units(slope, q0, k):
+    # Scaling the flow by k scales slope, level and limit alike: remaining hours unchanged
+    h = np.array([0.0, 300.0, 650.0, 900.0, 1400.0])
+    q = q0 + slope * h + np.array([0.0, 0.01, -0.01, 0.02, 0.0])
+    limit = q0 + slope * 3000.0
+    a = wear.case_drain_trend(h, q, limit_lpm=limit)
+    b = wear.case_drain_trend(h, k * q, limit_lpm=k * limit)
+    assert b.slope == pytest.approx(k * a.slope, rel=1e-9)
+    if math.isfinite(a.remaining_h):
+        assert b.remaining_h == pytest.approx(a.remaining_h, rel=1e-6)
