@@ -124,13 +124,16 @@ def _upload_key(h: Histogram, unit_id: int) -> tuple:
 
 
 def _insert_uploads(conn: Connection, file_id: int, plan) -> dict[tuple, int]:  # noqa: ANN001
-    keys = list(dict.fromkeys(_upload_key(h, plan.component_unit[c]) for h, c, _ in plan.histograms))
-    ids: dict[tuple, int] = {}
-    for key in keys:  # one statement per upload; uploads are few per file
-        ids[key] = conn.execute(store.upload.insert().values(
-            file_id=file_id, unit_id=key[0], period_start=key[1], period_end=key[2],
-            hour_meter_start=key[3], hour_meter_end=key[4])).inserted_primary_key[0]
-    return ids
+    keys = list(dict.fromkeys(
+        _upload_key(h, plan.component_unit[c]) for h, c, _ in plan.histograms))
+    if not keys:
+        return {}
+    rows = [dict(file_id=file_id, unit_id=k[0], period_start=k[1], period_end=k[2],
+                 hour_meter_start=k[3], hour_meter_end=k[4]) for k in keys]
+    t = store.upload
+    stmt = t.insert().returning(t.c.id, sort_by_parameter_order=True)
+    ids = conn.execute(stmt, rows).scalars().all()
+    return dict(zip(keys, ids, strict=True))
 
 
 def _insert_histograms(conn: Connection, plan, upload_ids: dict) -> None:  # noqa: ANN001

@@ -1,0 +1,163 @@
+"""Ingest against the store: the rules that need the stored history, on SQLite and PostgreSQL.
+
+Every rejection asserts the message and that the database is exactly as it was
+(row counts and the content of every table).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from sqlalchemy import select
+
+from monitor import queries, service, store
+
+DATA = Path(__file__).parent / "data"
+HEADER = ("unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
+          "pressure_low_bar,pressure_high_bar,hours\n")
+
+
+def day_csv(unit: str, position: str, day: int, hm0: float, hm1: float,
+            bands=((0, 100), (100, 200), (200, 300)), split=(0.5, 0.3, 0.2)) -> bytes:
+    """One daily 1-D histogram of an invented unit as histogram-CSV bytes."""
+    start, end = f"2026-04-{day:02d}T00:00:00Z", f"2026-04-{day + 1:02d}T00:00:00Z"
+    total = hm1 - hm0
+    rows = [f"{unit},{position},{start},{end},{hm0},{hm1},pressure,{lo},{hi},{total * f:.6f}\n"
+            for (lo, hi), f in zip(bands, split, strict=True)]
+    return (HEADER + "".join(rows)).encode()
+
+
+def snapshot(engine) -> dict:
+    """Every row of every table, for an exact before/after comparison."""
+    out = {}
+    with engine.connect() as conn:
+        for name, table in store.metadata.tables.items():
+            out[name] = sorted(map(tuple, conn.execute(select(table)).all()), key=repr)
+    return out
+
+
+@pytest.fixture
+def engine(db_url):
+    eng = service.init_db(db_url)
+    service.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    yield eng
+    eng.dispose()
+
+
+def assert_rejected_unchanged(engine, data: bytes, name: str, *fragments: str):
+    before = snapshot(engine)
+    res = service.upload(engine, data, name)
+    assert res.status == service.REJECTED, res
+    text = " | ".join(str(p) for p in res.problems)
+    for frag in fragments:
+        assert frag in text, text
+    assert snapshot(engine) == before
+    return res
+
+
+def test_good_files_are_stored_with_ledger_rows(engine):
+    for name in ("hist_pressure.csv", "hist_pressure_speed.csv", "readings.csv"):
+        res = service.upload(engine, (DATA / name).read_bytes(), name)
+        assert res.status == service.ACCEPTED, res.problems
+    with engine.connect() as conn:
+        counts = queries.table_counts(conn)
+    assert counts["histogram"] == 4 and counts["reading"] == 3
+    assert counts["ledger"] == 4  # one per upload and component
+    assert counts["upload_file"] == 3
+
+
+def test_same_file_twice_counts_once(engine):
+    data = (DATA / "hist_pressure.csv").read_bytes()
+    assert service.upload(engine, data, "hist_pressure.csv").status == service.ACCEPTED
+    before = snapshot(engine)
+    again = service.upload(engine, data, "renamed-copy.csv")
+    assert again.status == service.DUPLICATE
+    assert snapshot(engine) == before
+
+
+def test_unknown_unit_is_rejected_with_a_hint(engine):
+    assert_rejected_unchanged(engine, day_csv("ZZ-999", "left", 1, 10, 14), "x.csv",
+                              "ZZ-999", "not in the fleet registry", "fleet import")
+
+
+def test_unknown_position_names_the_registered_ones(engine):
+    assert_rejected_unchanged(engine, day_csv("LR-101", "middle", 1, 10, 14), "x.csv",
+                              "middle", "left, right")
+
+
+def test_overlap_with_stored_upload_of_different_content_names_it(engine):
+    first = day_csv("LR-101", "left", 1, 5000, 5008)
+    assert service.upload(engine, first, "day1.csv").status == service.ACCEPTED
+    changed = day_csv("LR-101", "left", 1, 5000, 5008, split=(0.2, 0.3, 0.5))
+    assert_rejected_unchanged(engine, changed, "day1-again.csv",
+                              "overlaps stored upload", "day1.csv")
+
+
+def test_identical_histogram_in_another_file_is_skipped_not_counted_twice(engine):
+    day1 = day_csv("LR-101", "left", 1, 5000, 5008)
+    day2 = day_csv("LR-101", "left", 2, 5008, 5015)
+    assert service.upload(engine, day1, "day1.csv").status == service.ACCEPTED
+    both = day1 + day2[len(HEADER):]
+    res = service.upload(engine, both, "days1-2.csv")
+    assert res.status == service.ACCEPTED and res.skipped == 1 and res.histograms == 1
+    with engine.connect() as conn:
+        assert queries.table_counts(conn)["ledger"] == 2
+
+
+def test_hour_meter_running_backwards_against_stored_history(engine):
+    assert service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status == service.ACCEPTED
+    later_but_lower = day_csv("LR-101", "left", 6, 4990, 4998)
+    assert_rejected_unchanged(engine, later_but_lower, "d6.csv", "hour meter runs backwards",
+                              "hour_meter_change")
+
+
+def test_hour_meter_change_event_allows_a_reset(engine):
+    # LR-102 has an hour_meter_change recorded on 2025-11-03 (tests/data/fleet.yaml)
+    def nov(day, hm0, hm1):
+        text = day_csv("LR-102", "left", day, hm0, hm1).decode()
+        return text.replace("2026-04-", "2025-11-").encode()
+
+    assert service.upload(engine, nov(1, 2200, 2208), "before.csv").status == service.ACCEPTED
+    res = service.upload(engine, nov(4, 10, 18), "after.csv")
+    assert res.status == service.ACCEPTED, res.problems
+
+
+def test_dry_run_validates_and_stores_nothing(engine):
+    before = snapshot(engine)
+    res = service.upload(engine, (DATA / "hist_pressure.csv").read_bytes(), "h.csv",
+                         dry_run=True)
+    assert res.status == service.VALID and res.histograms == 3
+    assert snapshot(engine) == before
+
+
+@pytest.mark.parametrize("bad", sorted(p.name for p in DATA.glob("bad_*")))
+def test_every_broken_sample_is_rejected_and_changes_nothing(engine, bad):
+    res = assert_rejected_unchanged(engine, (DATA / bad).read_bytes(), bad)
+    assert all(p.message for p in res.problems)
+
+
+def test_csv_semicolon_and_json_store_identical_histograms(tmp_path):
+    blobs = []
+    for i, name in enumerate(("hist_pressure.csv", "hist_pressure_semicolon.csv")):
+        eng = service.init_db(f"sqlite:///{tmp_path / f'{i}.db'}")
+        service.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+        assert service.upload(eng, (DATA / name).read_bytes(), name).status == "accepted"
+        with eng.connect() as conn:
+            t = store.histogram
+            blobs.append(conn.execute(select(t.c.pressure_bands, t.c.hours, t.c.content_sha256)
+                                      .order_by(t.c.component_id)).all())
+        eng.dispose()
+    assert blobs[0] == blobs[1]
+
+
+def test_registry_import_is_idempotent_and_bad_registry_changes_nothing(engine):
+    before = snapshot(engine)
+    counts = service.import_registry(engine, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    assert counts.created == 0 and counts.updated == 0
+    assert snapshot(engine) == before
+    bad = (DATA / "fleet.yaml").read_text().replace("rated_dp_bar: 400", "rated_dp_bar: -4")
+    with pytest.raises(service.DomainError) as err:
+        service.import_registry(engine, bad, "bad.yaml")
+    assert any("rated_dp_bar" in str(p) for p in err.value.problems)
+    assert snapshot(engine) == before
