@@ -17,6 +17,7 @@ import hashlib
 import io
 import json
 import re
+import warnings
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
@@ -70,6 +71,8 @@ _TS_HELP = "write ISO 8601 with an offset, e.g. 2026-03-02T10:00:00Z or 2026-03-
 
 def _fmt(x: float) -> str:
     """A number as the user would write it (no trailing ``.0``)."""
+    if isinstance(x, str):
+        return x
     if not np.isfinite(x):
         return str(x)
     return np.format_float_positional(float(x), trim="-")
@@ -330,7 +333,7 @@ def _read_frame(
         decimal="," if sep == ";" else ".",
         header=0,
         names=names,
-        usecols=list(kinds),
+        index_col=False,
         keep_default_na=False,
         na_values=[""],
         skip_blank_lines=False,
@@ -339,16 +342,18 @@ def _read_frame(
     )
     floats = {c: k for c, k in kinds.items() if k != object}
     try:
-        try:
-            # fast path: numbers as float64, text inferred (explicit text dtypes are slow)
-            frame = pd.read_csv(io.BytesIO(data), dtype=floats, **kw)
-            if all(pd.api.types.is_string_dtype(frame[c]) for c in kinds if c not in floats):
-                return frame
-            return pd.read_csv(io.BytesIO(data), dtype=kinds, **kw)  # e.g. tag "0042"
-        except ValueError as e:
-            if isinstance(e, pd.errors.ParserError):
-                raise
-            return pd.read_csv(io.BytesIO(data), dtype=object, **kw)
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", pd.errors.ParserWarning)
+            return _read_typed(data, kinds, floats, kw)
+    except pd.errors.ParserWarning:  # the first data row is longer than the header
+        probs.add(
+            2,
+            None,
+            None,
+            f"line 2 has more fields than the header has columns ({len(header)}): every "
+            f"row needs one value per column, separated by `{sep}`",
+        )
+        return None
     except pd.errors.ParserError as e:
         m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
         if m:
@@ -362,6 +367,19 @@ def _read_frame(
         else:
             probs.add(None, None, None, f"cannot read the CSV: {e}")
         return None
+
+
+def _read_typed(data: bytes, kinds: dict, floats: dict, kw: dict) -> pd.DataFrame:
+    """Fast path: numbers as float64, text inferred (explicit text dtypes are slow)."""
+    try:
+        frame = pd.read_csv(io.BytesIO(data), dtype=floats, **kw)
+        if all(pd.api.types.is_string_dtype(frame[c]) for c in kinds if c not in floats):
+            return frame
+        return pd.read_csv(io.BytesIO(data), dtype=kinds, **kw)  # e.g. tag "0042"
+    except ValueError as e:
+        if isinstance(e, pd.errors.ParserError):
+            raise
+        return pd.read_csv(io.BytesIO(data), dtype=object, **kw)  # a cell is not a number
 
 
 def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
@@ -647,7 +665,7 @@ def _check_overlaps(t: _Table, g: _Groups, is2d: np.ndarray, probs: _Problems) -
     o = g.order
     same = np.r_[False, g.gs[1:] == g.gs[:-1]]
     pl, ph = t.num["pressure_low"][o], t.num["pressure_high"][o]
-    sl, sh = t.num["speed_low"][o], t.num["speed_high"][o]
+    sl = t.num["speed_low"][o]
     d2 = is2d[o]
     prev = np.r_[0, np.arange(len(o) - 1)]
     with np.errstate(invalid="ignore"):
@@ -667,9 +685,10 @@ def _check_overlaps(t: _Table, g: _Groups, is2d: np.ndarray, probs: _Problems) -
         def m(i: int, rows=rows, other=other, what=what) -> str:
             k = int(np.searchsorted(rows, i))
             if what == "cell":
+                also = t.locate(o[i - 1], "hours")[0]
                 return (
-                    f"pressure-speed cell given twice (also on line {t.locate(o[i - 1], 'hours')[0]}"
-                    "): give each pressure band x speed band cell once"
+                    f"pressure-speed cell given twice (also on line {also}): give each "
+                    "pressure band x speed band cell once"
                 )
             j = int(other[k])
             return (
