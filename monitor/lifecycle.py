@@ -1,0 +1,340 @@
+"""Remaining life, utilisation, due dates and status bands of one component.
+
+Works on arrays of per-upload damage and hours (sorted by time, since the last
+rebuild) produced by :mod:`monitor.spectrum`. Every number is an estimate for planning;
+the maker's service limits and qualified technicians decide when a unit is rebuilt.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time, timedelta
+
+import numpy as np
+
+RATE_WINDOW_H = 500.0
+"""Operating hours over which the recent damage rate is taken [h] (design brief)."""
+
+UTILISATION_WINDOW_DAYS = 30
+"""Calendar days over which utilisation is taken [d] (design brief)."""
+
+STATUS_BANDS = ("act now", "due soon", "plan ahead", "healthy")
+"""Status bands in order of urgency, most urgent first."""
+
+NO_ESTIMATE = "no estimate"
+"""Status of a component without a remaining-hours estimate."""
+
+DEFAULT_STATUS_LIMITS_H = {"overdue_h": 0.0, "due_h": 250.0, "plan_h": 1000.0}
+"""Upper limits of remaining hours [h] for "act now", "due soon" and "plan ahead"."""
+
+
+@dataclass(frozen=True)
+class BearingLife:
+    """Bearing-life state of one component since its last rebuild.
+
+    Attributes
+    ----------
+    consumed : float
+        Consumed fraction of the L10 life [-] (sum of damage / life factor).
+    rate_per_h : float
+        Recent damage rate [1/h]; nan without recent operating hours.
+    window_h : float
+        Operating hours the rate was taken over [h].
+    remaining_h : float
+        Remaining bearing hours [h]; nan = no estimate, inf = no damage accrues.
+    """
+
+    consumed: float
+    rate_per_h: float
+    window_h: float
+    remaining_h: float
+
+
+def _damage_hours(damage: np.ndarray, hours: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    d = np.asarray(damage, dtype=float).ravel()
+    h = np.asarray(hours, dtype=float).ravel()
+    if d.shape != h.shape:
+        raise ValueError(f"damage and hours must have equal length, got {d.size} and {h.size}")
+    if not (np.all(np.isfinite(h)) and np.all(h >= 0)):
+        raise ValueError("hours must be finite operating hours >= 0 for every upload")
+    if np.any(d < 0):
+        raise ValueError("damage must be >= 0 for every upload")
+    return d, h
+
+
+def damage_rate_per_h(
+    damage: np.ndarray, hours: np.ndarray, *, rate_window_h: float = RATE_WINDOW_H
+) -> tuple[float, float]:
+    """Damage rate over the most recent uploads that make up the rate window.
+
+    Parameters
+    ----------
+    damage : array (n,)
+        Damage of each upload since the last rebuild, oldest first [-].
+    hours : array (n,)
+        Operating hours of each upload [h].
+    rate_window_h : float, default 500
+        Operating hours the rate is taken over [h].
+
+    Returns
+    -------
+    tuple of float
+        (rate [1/h], hours used [h]); rate is nan when the uploads hold no hours.
+
+    Notes
+    -----
+    Take the fewest most recent uploads whose hours add up to at least the window (all
+    uploads if they add up to less): ``rate = sum D_k / sum t_k`` over those uploads.
+
+    References
+    ----------
+    Design brief, "Life model v1" (damage rate).
+    """
+    if not (rate_window_h > 0):
+        raise ValueError(f"rate_window_h must be > 0 h, got {rate_window_h!r}")
+    d, h = _damage_hours(damage, hours)
+    back = np.cumsum(h[::-1])
+    reached = np.nonzero(back >= rate_window_h)[0]
+    k = int(reached[0]) + 1 if reached.size else h.size
+    used_h = float(h[h.size - k :].sum())
+    if used_h <= 0:
+        return math.nan, 0.0
+    return float(d[d.size - k :].sum()) / used_h, used_h
+
+
+def remaining_bearing_h(consumed: float | np.ndarray, rate_per_h: float | np.ndarray) -> np.ndarray:
+    """Remaining bearing hours at the recent damage rate.
+
+    Parameters
+    ----------
+    consumed : float or array
+        Consumed fraction of the life [-].
+    rate_per_h : float or array
+        Damage rate [1/h]; nan = no recent operation.
+
+    Returns
+    -------
+    numpy.ndarray
+        Remaining hours [h]: 0 once the life is used up; nan without a rate; inf
+        when the rate is 0 (the recent load does no fatigue damage).
+
+    Notes
+    -----
+    ``remaining = max(0, 1 - consumed) / rate``.
+
+    References
+    ----------
+    Palmgren-Miner rule; design brief, "Life model v1".
+    """
+    c = np.asarray(consumed, dtype=float)
+    r = np.asarray(rate_per_h, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rem = np.maximum(0.0, 1.0 - c) / r
+    return np.where(c >= 1.0, 0.0, np.where(np.isnan(r), np.nan, rem))
+
+
+def bearing_life(
+    damage: np.ndarray,
+    hours: np.ndarray,
+    *,
+    rate_window_h: float = RATE_WINDOW_H,
+    life_factor: float = 1.0,
+) -> BearingLife:
+    """Consumed fraction, damage rate and remaining hours of one component.
+
+    Parameters
+    ----------
+    damage : array (n,)
+        Damage of each upload since the last rebuild at ``a = 1``, oldest first [-].
+    hours : array (n,)
+        Operating hours of each upload [h].
+    rate_window_h : float, default 500
+        Rate window [h].
+    life_factor : float, default 1
+        Life factor applied afterwards, e.g. a1 for the planning reliability [-]; the
+        damage is divided by it.
+
+    Returns
+    -------
+    BearingLife
+        See the class; no uploads or no hours give ``remaining_h`` nan.
+
+    Notes
+    -----
+    ``consumed = sum D / a``; ``rate`` from :func:`damage_rate_per_h` divided by ``a``;
+    ``remaining = max(0, 1 - consumed) / rate``.
+
+    References
+    ----------
+    Design brief, "Life model v1"; ISO 281:2007 for a1.
+    """
+    if not (life_factor > 0):
+        raise ValueError(f"life_factor must be > 0, got {life_factor!r}")
+    d, h = _damage_hours(damage, hours)
+    rate, used = damage_rate_per_h(d, h, rate_window_h=rate_window_h)
+    consumed = float(d.sum()) / life_factor
+    rate = rate / life_factor
+    return BearingLife(consumed, rate, used, float(remaining_bearing_h(consumed, rate)))
+
+
+def limiting_mode(bearing_h: float, wear_h: float) -> tuple[float, str | None]:
+    """The smaller of the bearing and wear estimates, and which one it is.
+
+    Parameters
+    ----------
+    bearing_h, wear_h : float
+        Remaining bearing and wear hours [h]; nan = no estimate.
+
+    Returns
+    -------
+    tuple
+        (remaining hours [h], "bearing" | "wear" | None); None when neither has an
+        estimate. A tie is reported as "bearing".
+
+    Notes
+    -----
+    ``remaining = min(bearing, wear)`` ignoring nan.
+
+    References
+    ----------
+    Design brief, "Life model v1".
+    """
+    if math.isnan(bearing_h) and math.isnan(wear_h):
+        return math.nan, None
+    if math.isnan(wear_h) or (not math.isnan(bearing_h) and bearing_h <= wear_h):
+        return float(bearing_h), "bearing"
+    return float(wear_h), "wear"
+
+
+def _day_start(as_of: date) -> datetime:
+    if isinstance(as_of, datetime) or not isinstance(as_of, date):
+        raise ValueError(f"as_of must be a datetime.date (a day), got {as_of!r}")
+    return datetime.combine(as_of, time(0), tzinfo=UTC)
+
+
+def utilisation_h_per_day(
+    period_end: list[datetime] | tuple[datetime, ...],
+    meter_hours: np.ndarray,
+    as_of: date,
+    *,
+    window_days: int = UTILISATION_WINDOW_DAYS,
+) -> float:
+    """Recent utilisation: hour-meter hours per calendar day.
+
+    Parameters
+    ----------
+    period_end : list or tuple of datetime
+        End of each upload's period, timezone-aware.
+    meter_hours : array (n,)
+        Hour-meter hours of each upload (end minus start) [h].
+    as_of : datetime.date
+        The as-of day; data that ended before its start (00:00 UTC) count.
+    window_days : int, default 30
+        Length of the window [d].
+
+    Returns
+    -------
+    float
+        Utilisation [h/d]; 0.0 when no upload ended in the window.
+
+    Notes
+    -----
+    ``u = sum t_k / window_days`` over uploads with
+    ``as_of 00:00 - window_days <= end < as_of 00:00``.
+
+    References
+    ----------
+    Design brief, "Life model v1" (utilisation).
+    """
+    start = _day_start(as_of)
+    if not (isinstance(window_days, int) and window_days > 0):
+        raise ValueError(f"window_days must be a whole number of days > 0, got {window_days!r}")
+    h = np.asarray(meter_hours, dtype=float).ravel()
+    if len(period_end) != h.size:
+        raise ValueError("period_end and meter_hours must have equal length")
+    if not (np.all(np.isfinite(h)) and np.all(h >= 0)):
+        raise ValueError("meter_hours must be finite hours >= 0 for every upload")
+    if any(t.tzinfo is None for t in period_end):
+        raise ValueError("period_end must hold timezone-aware datetimes (UTC)")
+    begin = start - timedelta(days=window_days)
+    inside = np.array([begin <= t < start for t in period_end], dtype=bool)
+    return float(h[inside].sum()) / window_days if h.size else 0.0
+
+
+def due_date(as_of: date, remaining_h: float, utilisation_h_per_day: float) -> date | None:
+    """Calendar date when the remaining hours run out at the recent utilisation.
+
+    Parameters
+    ----------
+    as_of : datetime.date
+        The as-of day.
+    remaining_h : float
+        Remaining hours [h].
+    utilisation_h_per_day : float
+        Utilisation [h/d].
+
+    Returns
+    -------
+    datetime.date or None
+        None without an estimate, without utilisation, for infinite remaining hours or
+        beyond the calendar's range.
+
+    Notes
+    -----
+    ``due = as_of + floor(remaining / utilisation)`` days.
+
+    References
+    ----------
+    Design brief, "Life model v1" (due date).
+    """
+    _day_start(as_of)
+    if math.isnan(remaining_h) or not (utilisation_h_per_day > 0):
+        return None
+    days = max(remaining_h, 0.0) / utilisation_h_per_day
+    if not math.isfinite(days) or days >= (date.max - as_of).days:
+        return None
+    return as_of + timedelta(days=math.floor(days))
+
+
+def status_band(
+    remaining_h: float | np.ndarray,
+    *,
+    overdue_h: float = DEFAULT_STATUS_LIMITS_H["overdue_h"],
+    due_h: float = DEFAULT_STATUS_LIMITS_H["due_h"],
+    plan_h: float = DEFAULT_STATUS_LIMITS_H["plan_h"],
+) -> str | np.ndarray:
+    """Status band for remaining hours.
+
+    Parameters
+    ----------
+    remaining_h : float or array
+        Remaining hours [h]; nan = no estimate.
+    overdue_h, due_h, plan_h : float
+        Ascending upper limits [h] of "act now", "due soon" and "plan ahead".
+
+    Returns
+    -------
+    str or numpy.ndarray of str
+        One of :data:`STATUS_BANDS`, or :data:`NO_ESTIMATE` for nan.
+
+    Notes
+    -----
+    ``act now: r <= overdue_h``; ``due soon: r <= due_h``; ``plan ahead: r <= plan_h``;
+    otherwise healthy (including inf).
+
+    References
+    ----------
+    Design brief (status bands); limits are planning settings, common practice.
+    """
+    if not (overdue_h <= due_h <= plan_h):
+        raise ValueError(
+            "status limits must be ascending: overdue_h <= due_h <= plan_h, got "
+            f"{overdue_h!r}, {due_h!r}, {plan_h!r}"
+        )
+    r = np.asarray(remaining_h, dtype=float)
+    with np.errstate(invalid="ignore"):
+        idx = np.searchsorted(np.array([overdue_h, due_h, plan_h]), r, side="left")
+    names = np.array((*STATUS_BANDS, NO_ESTIMATE), dtype=object)
+    out = names[np.where(np.isnan(r), len(STATUS_BANDS), idx)]
+    return str(out) if r.ndim == 0 else out
