@@ -340,7 +340,7 @@ def _read_frame(
         engine="c",
         encoding="utf-8-sig",
     )
-    floats = {c: k for c, k in kinds.items() if k != object}
+    floats = {c: k for c, k in kinds.items() if k is not object}
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", pd.errors.ParserWarning)

@@ -174,7 +174,12 @@ def load_registry(source: str | bytes | IO, name: str) -> tuple[Registry | None,
         ),
         units=tuple(u for i, e in enumerate(sec["units"]) if (u := _unit(e, f"units[{i}]", ck))),
     )
-    _check_references(reg, ck)
+    # names of entries that were themselves rejected still count as known for references
+    raw = {
+        key: {str(e.get("name")) for e in sec[sect] if isinstance(e, dict)}
+        for key, sect in (("site", "sites"), ("oil", "oils"), ("model", "component_models"))
+    }
+    _check_references(reg, raw, ck)
     return (None if ck.items else reg), ck.items
 
 
@@ -389,17 +394,12 @@ def _unique(names: list[str], what: str, path: str, ck: _Check) -> None:
         seen.add(n)
 
 
-def _check_references(reg: Registry, ck: _Check) -> None:
+def _check_references(reg: Registry, known: dict[str, set[str]], ck: _Check) -> None:
     """Names unique; each unit's site, oil, component models and service positions exist."""
     _unique([o.name for o in reg.oils], "oil name", "oils[{}].name", ck)
     _unique([m.name for m in reg.component_models], "model name", "component_models[{}].name", ck)
     _unique([s.name for s in reg.sites], "site name", "sites[{}].name", ck)
     _unique([u.tag for u in reg.units], "unit tag", "units[{}].tag", ck)
-    known = {
-        "site": {s.name for s in reg.sites},
-        "oil": {o.name for o in reg.oils},
-        "model": {m.name for m in reg.component_models},
-    }
     for i, u in enumerate(reg.units):
         p = f"units[{i}]"
         for key, val in (("site", u.site), ("oil", u.oil)):
