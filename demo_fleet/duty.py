@@ -44,6 +44,9 @@ DUTIES: dict[str, tuple[tuple[tuple[float, float, float], ...], tuple[float, flo
     "chain": (((0.65, 220.0, 35.0), (0.35, 300.0, 40.0)), (3e-4, 1.5e-3)),
 }
 
+WORKING_CAP = 0.92
+"""Working pressures stay below this share of the cut-off or relief setting [-]."""
+
 STALL_SHARE = 0.035
 """Share of hours the stalling loader spends over its cross-port relief [-]."""
 
@@ -68,18 +71,17 @@ def band_probabilities(
 ) -> np.ndarray:
     """Share of hours in each 25 bar band [-] for a duty stretched by ``scale`` [-].
 
-    Mass of the working components below 0 bar goes to the first band and mass above the
-    loop's limit (cut-off or relief) to the band holding the limit. The limit component
+    Mass of the working components below 0 bar goes to the first band; they are cut off
+    at ``WORKING_CAP`` of the loop's limit (cut-off or relief). The limit component
     sits just above the relief (cross-port relief with override) or just below the cut-off.
     """
-    limit = _limit_bar(model)
-    edges = np.where(EDGES_BAR >= limit, np.inf, EDGES_BAR)
+    cap = WORKING_CAP * _limit_bar(model)
+    edges = np.minimum(EDGES_BAR, cap)
     edges[0] = -np.inf
-    probs = np.zeros(N_BANDS)
-    total_w = sum(w for w, _, _ in working)
+    working_p = np.zeros(N_BANDS)
     for weight, centre, sd in working:
-        cdf = ndtr((edges - centre * scale) / (sd * scale))
-        probs += (1.0 - limit_share) * weight / total_w * np.diff(cdf)
+        working_p += weight * np.diff(ndtr((edges - centre * scale) / (sd * scale)))
+    probs = (1.0 - limit_share) * working_p / working_p.sum()
     if "cutoff_bar" in model:
         centre, sd = model["cutoff_bar"] - 4.0, 6.0
     else:
@@ -129,7 +131,7 @@ def calibrate_scale(
 
 
 def daily_band_hours(
-    rng: np.random.Generator, probs: np.ndarray, ticks: np.ndarray, spread: float = 80.0
+    rng: np.random.Generator, probs: np.ndarray, ticks: np.ndarray, spread: float = 200.0
 ) -> np.ndarray:
     """Integer ticks (0.01 h) in each band for each day, summing exactly to ``ticks``.
 
@@ -179,11 +181,14 @@ def site_saturdays(rng: np.random.Generator, days: np.ndarray, calendar: str) ->
 
 
 def _hire_mask(rng: np.random.Generator, n: int) -> np.ndarray:
-    """On-hire days of a hire machine: alternating on/off spells (mean 25 / 12 days)."""
+    """On-hire days of a hire machine: alternating on/off spells (mean 25 / 7 days).
+
+    Off-hire spells last at most 9 days: the yard hires out idle machines quickly.
+    """
     mask = np.zeros(n, dtype=bool)
     pos, on = 0, bool(rng.random() < 0.6)
     while pos < n:
-        length = int(rng.geometric(1 / 25.0 if on else 1 / 12.0))
+        length = int(rng.geometric(1 / 25.0)) if on else min(9, int(rng.geometric(1 / 7.0)))
         mask[pos : pos + length] = on
         pos, on = pos + length, not on
     return mask
@@ -199,7 +204,7 @@ def unit_daily_tenths(
     """Engine hours of each day in tenths of an hour [0.1 h] for one unit.
 
     Weekdays work, the site's working Saturdays work shorter, shutdowns and breakdown
-    spells (about 1 % chance per day of a 2-10 day stop) are idle; the quarry works
+    spells (about 1 % chance per day of a 2-7 day stop) are idle; the quarry works
     shorter days in winter; hire machines work only while on hire.
     """
     n = days.size
@@ -209,7 +214,7 @@ def unit_daily_tenths(
     working &= ~_closed(days, calendar)
     working &= rng.random(n) > 0.04  # odd idle days
     for start in np.flatnonzero(rng.random(n) < 0.01):
-        working[start : start + int(rng.integers(2, 11))] = False
+        working[start : start + int(rng.integers(2, 8))] = False
     mean = {"quarry": 7.5, "mill": 15.5, "hire": 6.5}[calendar]
     sd = {"quarry": 1.5, "mill": 1.2, "hire": 2.0}[calendar]
     hours = rng.normal(mean, sd, n)

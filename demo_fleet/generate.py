@@ -55,14 +55,15 @@ SUBFOLDERS = ("histograms", "readings")
 class GeneratedFleet:
     """What :func:`generate` wrote.
 
-    ``exports`` are in the order to ingest (histograms month by month, then readings);
-    ``broken`` is not among them. ``stories`` maps each story role to a unit tag, and
-    ``rebuilt_recently`` to (tag, position). ``as_of`` is the day after ``end_date``.
+    ``export_paths`` are in the order to ingest (histograms month by month, then
+    readings); ``broken_path`` is not among them. ``stories`` maps each story role to a
+    unit tag, and ``rebuilt_recently`` to (tag, position). ``as_of`` is the day after
+    ``end_date``. ``histograms`` counts the (unit, position, day) histograms written.
     """
 
-    registry: Path
-    exports: list[Path]
-    broken: Path
+    registry_path: Path
+    export_paths: list[Path]
+    broken_path: Path
     stories: dict[str, object]
     start_date: date
     end_date: date
@@ -228,9 +229,9 @@ def generate(
     stories: dict[str, object] = {role: tag for role, tag in STORIES.items()}
     stories["rebuilt_recently"] = (STORIES["rebuilt_recently"], REBUILT_RECENTLY_POSITION)
     return GeneratedFleet(
-        registry=moved[-2],
-        exports=moved[:-2],
-        broken=moved[-1],
+        registry_path=moved[-2],
+        export_paths=moved[:-2],
+        broken_path=moved[-1],
         stories=stories,
         start_date=date.fromisoformat(str(days[0])),
         end_date=end,
@@ -278,13 +279,13 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     total = sum(fleet.sizes_bytes.values())
     print(
-        f"{fleet.units} units, {fleet.histograms} histograms, {len(fleet.exports)} exports, "
+        f"{fleet.units} units, {fleet.histograms} histograms, {len(fleet.export_paths)} exports, "
         f"{total / 1e6:.1f} MB in {time.perf_counter() - began:.1f} s -> {args.out_dir}"
     )
     print(f"data {fleet.start_date} .. {fleet.end_date}; as-of {fleet.as_of}")
     for role, tag in fleet.stories.items():
         print(f"  {role}: {tag}")
-    print(f"  broken export (must be rejected): {fleet.broken}")
+    print(f"  broken export (must be rejected): {fleet.broken_path}")
     return 0
 
 

@@ -21,13 +21,19 @@ from demo_fleet.scenario import (
 HOURS_FACTOR = {"crawler dozer": 0.85, "trencher": 0.8, "tracked dumper": 0.9}
 """Engine hours of a machine type relative to its site's typical day [-]."""
 
-REBUILD_DAMAGE = (0.75, 1.0)
+REBUILD_DAMAGE = (0.6, 0.85)
 """Consumed bearing life at which the shop rebuilds a component [-] (invented policy)."""
 REBUILD_WEAR = 0.95
 """Share of the case-drain limit at which the shop rebuilds a component [-]."""
 COMPANION_DAMAGE = 0.6
 """A second loop past this consumed life is rebuilt in the same downtime [-]."""
 WEAR_EXPONENT = 1.3
+NEAR_END_CONSUMED = 0.935
+"""Bearing life the near-end conveyor has consumed since its last rebuild [-]."""
+NEAR_END_TARGET_LIFE_H = 9000.0
+"""Expected bearing life under its duty of the near-end conveyor pump [h]."""
+SILENT_DAYS = 42
+"""Days before the end date from which the silent unit's uploads stop arriving."""
 """Normalised leakage grows as new * offset * (1 + w ** WEAR_EXPONENT) [-]."""
 
 
@@ -115,6 +121,8 @@ def _spectra(plan: UnitPlan, rng: np.random.Generator, tenths: np.ndarray) -> li
                 share = duty.STALL_SHARE
             ratio = float(np.mean(speed)) / model["rated_speed_rpm"]
             target = rng.uniform(lo_life, hi_life)
+            if plan.story == "near_end_conveyor" and position == NEAR_END_POSITION:
+                target = NEAR_END_TARGET_LIFE_H
             scale = duty.calibrate_scale(working, share, model, ratio, target)
             probs = duty.band_probabilities(working, scale, share, model)
             loop_counts = duty.daily_band_hours(rng, probs, tenths * 10)
@@ -178,28 +186,32 @@ def schedule_rebuilds(
     n = hist.tenths.size
     life_start = {p.position: 0 for p in hist.positions}
     thresholds = {p.position: float(rng.uniform(*REBUILD_DAMAGE)) for p in hist.positions}
-    forced = sorted(forced)
+    pending = sorted(forced)
     last = -1
     while True:
-        cands = []
+        cands = [(d, p, True) for d, p in pending[:1]]
         for pos in hist.positions:
             t = _trigger(pos, hist.tenths, life_start[pos.position], thresholds[pos.position])
             if 0 <= t < auto_until:
                 cands.append((max(t + int(rng.integers(2, 9)), last + 1), pos.position, False))
-        cands += [(d, p, True) for d, p in forced if d > last]
-        if not cands:
+        if not cands or min(cands)[0] >= n:
             return
         day, position, is_forced = min(cands)
-        if day >= n:
-            return
+        if is_forced:
+            pending.pop(0)
         _apply_downtime(hist, day, 1 if is_forced else int(rng.integers(1, 4)))
-        by_name = {p.position: p for p in hist.positions}
-        _rebuild(hist, rng, by_name[position], day, life_start)
-        for other in hist.positions:
-            consumed = other.damage[life_start[other.position] : day].sum()
-            if other.position != position and consumed > COMPANION_DAMAGE and not is_forced:
-                _rebuild(hist, rng, other, day, life_start)
-        thresholds = {p.position: float(rng.uniform(*REBUILD_DAMAGE)) for p in hist.positions}
+        done = [position]
+        if not is_forced:
+            done += [
+                o.position
+                for o in hist.positions
+                if o.position != position
+                and o.damage[life_start[o.position] : day].sum() > COMPANION_DAMAGE
+            ]
+        for pos in hist.positions:
+            if pos.position in done:
+                _rebuild(hist, rng, pos, day, life_start)
+                thresholds[pos.position] = float(rng.uniform(*REBUILD_DAMAGE))
         last = day
 
 
@@ -211,6 +223,35 @@ def near_end_rebuild_day(pos: PositionHistory, consumed: float) -> int | None:
     return int(ok[-1]) if ok.size else None
 
 
+def _ensure_recent(tenths: np.ndarray, days: np.ndarray) -> None:
+    """Give a unit some hours in its last working days if it has none in the last 10.
+
+    Keeps the silent unit the only one whose uploads stop before the end date.
+    """
+    if tenths.size >= 10 and tenths[-10:].sum() == 0:
+        weekday = (days[-10:].astype(np.int64) + 3) % 7
+        tenths[-10:] = np.where(weekday < 5, 40, 0)
+
+
+def _story_setup(hist: UnitHistory, n: int) -> tuple[int, list[tuple[int, str]]]:
+    """Story rebuilds and the last day auto rebuilds may trigger, for one unit."""
+    story = hist.plan.story
+    if story == "near_end_conveyor":
+        pos = next(p for p in hist.positions if p.position == NEAR_END_POSITION)
+        day = near_end_rebuild_day(pos, consumed=NEAR_END_CONSUMED)
+        return 0, ([] if day is None else [(day, NEAR_END_POSITION)])
+    if story == "rebuilt_recently":
+        return max(0, n - 300), [(max(0, n - 30), REBUILT_RECENTLY_POSITION)]
+    if story == "contaminated":
+        rebuilt = max(0, n - min(600, int(0.6 * n)))
+        onset = max(rebuilt + 1, n - min(420, int(0.45 * n)))
+        hist.contamination = (onset, min(n, onset + 56))
+        for pos in hist.positions:
+            pos.wear_mult[onset:] = 6.0
+        return 0, [(rebuilt, p.position) for p in hist.positions]
+    return n, []
+
+
 def simulate_unit(
     plan: UnitPlan, seed: int, days: np.ndarray, saturdays: np.ndarray, meter0_tenths: int
 ) -> UnitHistory:
@@ -220,42 +261,30 @@ def simulate_unit(
     tenths = duty.unit_daily_tenths(
         rng, days, plan.site.calendar, saturdays, HOURS_FACTOR.get(plan.machine.name, 1.0)
     )
+    if plan.story != "silent":
+        _ensure_recent(tenths, days)
     positions = _spectra(plan, rng, tenths)
     hist = UnitHistory(plan, tenths, meter0_tenths, positions, [], np.ones(n, dtype=bool))
     for pos in positions:
         pos.damage = _damage(pos)
         pos.wear_mult = np.ones(n)
         pos.offsets = [float(rng.uniform(0.9, 1.15))]
-    forced: list[tuple[int, str]] = []
-    auto_until = n
-    if plan.story in ("near_end_conveyor", "contaminated"):
-        auto_until = 0
-    if plan.story == "near_end_conveyor":
-        pos = next(p for p in positions if p.position == NEAR_END_POSITION)
-        day = near_end_rebuild_day(pos, consumed=0.935)
-        forced = [] if day is None else [(day, NEAR_END_POSITION)]
-    if plan.story == "rebuilt_recently":
-        forced = [(max(0, n - 30), REBUILT_RECENTLY_POSITION)]
-        auto_until = max(0, n - 300)
-    if plan.story == "contaminated":
-        onset = max(1, n - min(450, n // 2))
-        hist.contamination = (onset, min(n, onset + 56))
-        for pos in positions:
-            pos.wear_mult[onset:] = 6.0
+    auto_until, forced = _story_setup(hist, n)
     schedule_rebuilds(hist, rng, auto_until, forced)
     if plan.story == "contaminated":
         _calibrate_contaminated(hist)
     if plan.story == "silent":
-        hist.upload[max(0, n - 42) :] = False
+        hist.upload[max(0, n - SILENT_DAYS) :] = False
     return hist
 
 
 def _calibrate_contaminated(hist: UnitHistory) -> None:
-    """Set the wear life so the normalised drain ends at 90 % / 85 % of the limit."""
-    for pos, end_share in zip(hist.positions, (0.90, 0.85), strict=False):
-        pos.offsets = [1.0]
+    """Set the wear life so the normalised drain ends at 92 % / 88 % of the limit."""
+    for pos, end_share in zip(hist.positions, (0.92, 0.88), strict=False):
+        pos.offsets = [1.0] * len(pos.offsets)
+        start = max((e.day for e in hist.events if e.position == pos.position), default=0)
         target_w = (end_share * pos.model["case_drain"]["limit_factor"] - 1.0) ** (
             1.0 / WEAR_EXPONENT
         )
-        exposure = float(np.sum(hist.tenths / 10.0 * pos.wear_mult))
+        exposure = float(np.sum(hist.tenths[start:] / 10.0 * pos.wear_mult[start:]))
         pos.wear_life_h = exposure / target_w

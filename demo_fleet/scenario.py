@@ -135,13 +135,13 @@ MACHINE_TYPES: dict[str, MachineType] = {
         MachineType(
             "log deck conveyor",
             (("pump", "DS-P90", "conveyor", "electric"), ("motor", "DS-M110", "conveyor", "motor")),
-            target_life_h=(10000.0, 16000.0),
+            target_life_h=(11000.0, 18000.0),
             wear_life_h=(20000.0, 34000.0),
         ),
         MachineType(
             "debarker infeed conveyor",
             (("pump", "DS-P90", "conveyor", "electric"), ("motor", "DS-M110", "conveyor", "motor")),
-            target_life_h=(10000.0, 16000.0),
+            target_life_h=(11000.0, 18000.0),
             wear_life_h=(20000.0, 34000.0),
         ),
         MachineType(
@@ -150,13 +150,13 @@ MACHINE_TYPES: dict[str, MachineType] = {
                 ("pump", "DS-P46", "chain", "electric"),
                 ("motor", "DS-M110", "chain", "motor_matrix"),
             ),
-            target_life_h=(10000.0, 16000.0),
+            target_life_h=(11000.0, 18000.0),
             wear_life_h=(20000.0, 34000.0),
         ),
         MachineType(
             "trimmer chain drive",
             (("pump", "DS-P46", "chain", "electric"),),
-            target_life_h=(10000.0, 16000.0),
+            target_life_h=(11000.0, 18000.0),
             wear_life_h=(20000.0, 34000.0),
         ),
     )
