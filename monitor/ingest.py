@@ -582,6 +582,7 @@ def _histograms(t: _Table, probs: _Problems) -> list[Histogram]:
     _check_group_constants(t, g, probs)
     _check_overlaps(t, g, is2d, probs)
     _check_periods(t, g, start, end, probs)
+    _check_period_overlaps(t, g, start, end, probs)
     if probs:
         return []
     return _build(t, g, is2d, start, end)
@@ -771,6 +772,34 @@ def _check_periods(
             f"histogram hours add up to {total[k_of[r]]:.2f} h but the hour meter advanced "
             f"{dh[k_of[r]]:.2f} h; they may differ by at most {tol[k_of[r]]:.2f} h (the "
             "larger of 0.25 h and 5 %): check the hours column and the hour meter readings"
+        ),
+    )
+
+
+def _where(t: _Table, r: int, f: str) -> str:
+    """``line N`` for CSV rows, the field path for JSON values."""
+    line, column = t.locate(r, f)
+    return f"line {line}" if line is not None else column
+
+
+def _check_period_overlaps(
+    t: _Table, g: _Groups, start: np.ndarray, end: np.ndarray, probs: _Problems
+) -> None:
+    """Two histograms of one unit, position and quantity must not share time in one file."""
+    f = g.first
+    key = _group_ids([t.text[k][0][f] for k in ("unit", "position", "quantity")])
+    s, e = start[f], end[f]
+    o = np.lexsort((s, key))
+    bad = (key[o][1:] == key[o][:-1]) & (s[o][1:] < e[o][:-1])
+    rows, prev = f[o[1:][bad]], f[o[:-1][bad]]
+    other = dict(zip(rows.tolist(), prev.tolist(), strict=True))
+    probs.add_rows(
+        np.sort(rows),
+        "period_start",
+        t,
+        lambda r: (
+            f"period overlaps the histogram at {_where(t, other[r], 'period_start')} of the "
+            "same unit, position and quantity: each hour may be counted only once"
         ),
     )
 

@@ -339,3 +339,22 @@ def test_json_single_document_is_accepted():
     doc = json.loads((DATA / "upload.json").read_text())[1]
     p = parse_file(json.dumps(doc).encode(), "one.json")
     assert p.ok and len(p.histograms) == 1 and len(p.readings) == 1
+
+
+def test_overlapping_periods_in_one_file():
+    rows = [
+        "LR-101,left,2026-03-02T06:00:00Z,2026-03-03T06:00:00Z,0,1,pressure,0,10,1",
+        "LR-101,left,2026-03-02T18:00:00Z,2026-03-03T18:00:00Z,1,2,pressure,0,10,1",
+        "LR-101,right,2026-03-02T18:00:00Z,2026-03-03T18:00:00Z,1,2,pressure,0,10,1",
+    ]
+    p = parse_file(("\n".join([HEADER, *rows]) + "\n").encode(), "o.csv")
+    (pr,) = only(p, "period overlaps the histogram at line 2")
+    assert (pr.line, pr.column) == (3, "period_start")
+
+
+def test_duplicate_pressure_speed_cell():
+    text = (DATA / "hist_pressure_speed.csv").read_text()
+    last = text.strip().splitlines()[-1]
+    p = parse_file((text + last + "\n").encode(), "d.csv")
+    (pr,) = only(p, "cell given twice (also on line 6)")
+    assert pr.line == 7
