@@ -17,6 +17,8 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
+from monitor import lifecycle
+
 FONT = "Source Sans Pro, Segoe UI, Helvetica, Arial, sans-serif"
 INK = "#2B3440"
 GRID = "#E3E7EB"
@@ -25,27 +27,19 @@ SETTING = "#4A4A4A"
 TREND = "#2F6690"
 BAND = "rgba(47, 102, 144, 0.16)"
 
-STATUS_COLOURS = {
-    "overdue": "#8E1B3A",
-    "due": "#D98A1C",
-    "plan": "#5B8DB8",
-    "ok": "#A9B8C4",
-    "no estimate": "#7A7A7A",
-}
+STATUS_ORDER = (*lifecycle.STATUS_BANDS, lifecycle.NO_ESTIMATE)
+"""Status band names, most urgent first (from monitor.lifecycle)."""
+
+_PALETTE = ("#8E1B3A", "#D98A1C", "#5B8DB8", "#A9B8C4", "#7A7A7A")
+STATUS_COLOURS = dict(zip(STATUS_ORDER, _PALETTE, strict=True))
 """Colour of each status band (own palette; lightness falls with urgency)."""
-
-STATUS_ORDER = ("overdue", "due", "plan", "ok", "no estimate")
-"""Most urgent first; band names not listed here sort after these."""
-
-_STATUS_SYNONYMS = {"planning": "plan", "plan soon": "plan", "healthy": "ok", "good": "ok"}
 
 
 def status_key(status: object) -> str:
-    """The palette key for a status band name (unknown names map to themselves)."""
+    """The band name of a status value in lower case; missing values are "no estimate"."""
     if status is None or (isinstance(status, float) and math.isnan(status)):
-        return "no estimate"
-    text = str(status).strip().lower().replace("_", " ")
-    return _STATUS_SYNONYMS.get(text, text)
+        return lifecycle.NO_ESTIMATE
+    return str(status).strip().lower()
 
 
 def status_colour(status: object) -> str:

@@ -1,0 +1,74 @@
+"""Settings page: the status settings stored with the data, and the fleet registry."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from dashboards import data, ui
+from monitor import service
+
+ctx = ui.context()
+current = data.settings(ctx.url)
+limits = current["status_limits"]
+
+st.title("Settings")
+st.markdown(
+    "These settings are stored with the data and apply to everyone using this store. "
+    "The sidebar's reliability changes only your own view."
+)
+with st.form("settings_form"):
+    c1, c2 = st.columns(2)
+    reliability = c1.number_input(
+        "Planning reliability [%]", min_value=90.0, max_value=99.95, step=0.5,
+        value=float(current["reliability_pct"]), format="%.2f",
+        help="ISO 281 factor a1 is defined from 90 to 99.95 %.",
+    )  # fmt: skip
+    window = c2.number_input(
+        "Rate window [operating hours]", min_value=1.0, step=50.0,
+        value=float(current["rate_window_h"]),
+        help="The damage rate is taken over the most recent uploads adding up to this.",
+    )  # fmt: skip
+    st.markdown("**Status bands** — remaining hours at or below each limit")
+    b1, b2, b3 = st.columns(3)
+    overdue = b1.number_input(
+        "overdue at or below [h]", value=float(limits["overdue_h"]), step=10.0
+    )
+    due = b2.number_input("due at or below [h]", value=float(limits["due_h"]), step=50.0)
+    plan = b3.number_input("plan at or below [h]", value=float(limits["plan_h"]), step=100.0)
+    d1, d2 = st.columns(2)
+    stale = d1.number_input("Stale data after [days]", min_value=1, step=1,
+                            value=int(current["stale_days"]))  # fmt: skip
+    util = d2.number_input("Utilisation window [days]", min_value=1, step=1,
+                           value=int(current["utilisation_days"]))  # fmt: skip
+    with st.expander("Flags"):
+        e1, e2, e3 = st.columns(3)
+        step = e1.number_input("Case-drain step factor [×]", min_value=1.01, step=0.1,
+                               value=float(current["case_drain_step_factor"]))  # fmt: skip
+        relief = e2.number_input("Heavy relief share [fraction of hours]", min_value=0.0001,
+                                 max_value=0.99, step=0.005, format="%.4f",
+                                 value=float(current["heavy_relief_fraction"]))  # fmt: skip
+        readings = e3.number_input("Fewest readings for a wear trend", min_value=3, step=1,
+                                   value=int(current["min_wear_readings"]))  # fmt: skip
+    submitted = st.form_submit_button("Save settings", type="primary")
+
+if submitted:
+    values = {
+        "reliability_pct": reliability, "rate_window_h": window, "stale_days": int(stale),
+        "utilisation_days": int(util), "case_drain_step_factor": step,
+        "heavy_relief_fraction": relief, "min_wear_readings": int(readings),
+        "status_limits": {"overdue_h": overdue, "due_h": due, "plan_h": plan},
+    }  # fmt: skip
+    try:
+        data.save_settings(ctx.url, values)
+    except service.DomainError as err:
+        ui.show_error(f"Not saved: {err}", err.problems)
+    else:
+        st.success("Settings saved; the ranking uses them from now on.")
+
+st.subheader("Fleet registry")
+text = data.registry_text(ctx.url)
+if text:
+    st.caption("The last imported registry (read-only; upload a new one on the Upload page).")
+    st.code(text, language="yaml", height=420)
+else:
+    st.info("No fleet registry imported yet. Upload one (YAML) on the Upload page.")

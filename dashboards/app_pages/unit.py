@@ -1,0 +1,69 @@
+"""Unit page: why one unit stands where it does, component by component."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from dashboards import charts, data, ui
+from monitor import service
+
+ctx = ui.context()
+fleet = data.fleet(ctx.url, ctx.as_of, ctx.reliability_pct)
+tags = list(dict.fromkeys(fleet["unit"])) if not fleet.empty else []
+if not tags:
+    st.title("Unit")
+    st.info("The store holds no units yet. Import a fleet registry on the Upload page.")
+    st.stop()
+
+wanted = st.query_params.get("unit")
+if wanted and wanted not in tags:
+    st.error(f"There is no unit with the tag {wanted!r}. Pick one from the list below.")
+index = tags.index(wanted) if wanted in tags else 0
+tag = st.selectbox("Unit (most urgent first)", tags, index=index, key=f"u_pick_{wanted}")
+if tag != wanted:
+    st.query_params["unit"] = tag
+
+try:
+    report = data.unit_report(ctx.url, tag, ctx.as_of, ctx.reliability_pct)
+except service.DomainError as err:
+    ui.show_error(str(err), err.problems)
+    st.stop()
+
+info = report.unit
+st.title(f"Unit {info['tag']}")
+st.caption(f"{info.get('site', '')} · {info.get('machine_type', '')} · oil {info.get('oil', '')}"
+           f" · as of {ctx.as_of.isoformat()}")  # fmt: skip
+
+with st.container(border=True):
+    st.markdown("**Why this unit stands where it does**")
+    st.markdown("\n".join(f"- {line}" for line in report.summary) or "No data yet.")
+st.dataframe(ui.table_frame(report.status).drop(columns=["unit", "site", "machine_type"]),
+             column_config=ui.column_config(), hide_index=True, key="u_status")  # fmt: skip
+
+positions = list(report.components)
+for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict=True):
+    detail = report.components[pos]
+    row = ui.status_row(report.status, pos)
+    with tab:
+        st.caption(ui.model_caption(detail.model))
+        left, right = st.columns(2)
+        left.plotly_chart(
+            charts.spectrum_figure(detail.spectrum, detail.model.relief_bar,
+                                   detail.model.cutoff_bar), key=f"spec_{pos}")  # fmt: skip
+        right.plotly_chart(charts.life_figure(detail.life, detail.projection), key=f"life_{pos}")
+        line, crossing = ui.trend_line(detail, row)
+        left.plotly_chart(
+            charts.case_drain_figure(
+                detail.case_drain, detail.case_drain_limit_lpm, line, crossing
+            ),
+            key=f"drain_{pos}",
+        )
+        right.plotly_chart(charts.relief_figure(detail.relief_monthly), key=f"relief_{pos}")
+        left.plotly_chart(charts.oil_figure(detail.oil_samples), key=f"oil_{pos}")
+        right.markdown("**Oil samples**")
+        right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}")
+
+st.subheader("Service history")
+st.dataframe(report.service_history, hide_index=True, key="u_history")
+st.subheader("Recent uploads")
+st.dataframe(report.uploads, hide_index=True, key="u_uploads")

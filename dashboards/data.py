@@ -1,0 +1,134 @@
+"""The dashboard's only way to the store: monitor's service functions, cached.
+
+One engine per database URL for the life of the server process
+(``st.cache_resource``); frames are cached per question with a time-to-live and a
+bounded number of entries (``st.cache_data``) and cleared after anything is
+written (an upload or saved settings). No widgets are built in here.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from dataclasses import dataclass
+from datetime import date
+
+import pandas as pd
+import streamlit as st
+
+from monitor import planning, service
+
+ENV_URL = "DRIVESPAN_DB"
+MAX_UPLOAD_MB = 50
+"""Largest accepted upload [MB] (also the server's ``server.maxUploadSize``)."""
+MAX_UPLOAD_BYTES = MAX_UPLOAD_MB * 1024 * 1024
+FRAME_TTL_S = 600
+"""How long a cached frame may be reused before it is read again [s]."""
+
+
+def db_url() -> str | None:
+    """The database URL: ``--db URL`` after ``--`` on the command line, else $DRIVESPAN_DB."""
+    args = sys.argv[1:]
+    if "--db" in args and args.index("--db") + 1 < len(args):
+        return args[args.index("--db") + 1]
+    return os.environ.get(ENV_URL) or None
+
+
+@st.cache_resource(show_spinner=False)
+def engine(url: str | None) -> object:
+    """The engine for ``url``, schema created or upgraded once per server process."""
+    return service.init_db(url)
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=16, show_spinner="Ranking the fleet…")
+def fleet(url: str | None, as_of: date, reliability_pct: float | None) -> pd.DataFrame:
+    """Fleet status of every component (service.fleet_status), most urgent first."""
+    return service.fleet_status(engine(url), as_of, reliability_pct=reliability_pct)
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=32, show_spinner="Reading the unit…")
+def unit_report(url: str | None, tag: str, as_of: date, reliability_pct: float | None) -> object:
+    """service.unit_report for one unit (raises service.DomainError for an unknown tag)."""
+    return service.unit_report(engine(url), tag, as_of, reliability_pct=reliability_pct)
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=4, show_spinner=False)
+def settings(url: str | None) -> dict:
+    """Stored settings overlaid on the defaults (service.get_settings)."""
+    return service.get_settings(engine(url))
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=4, show_spinner=False)
+def registry_text(url: str | None) -> str | None:
+    """The text of the last imported fleet registry, or None."""
+    return service.show_registry(engine(url))
+
+
+def plan(url: str | None, as_of: date, reliability_pct: float | None, opts: PlanOptions) -> object:
+    """A rebuild plan (monitor.planning) on the cached fleet status.
+
+    Not cached itself: the plan holds read-only mappings that do not pickle, and
+    planning a few thousand rows takes well under a second.
+    """
+    return planning.plan_rebuilds(
+        fleet(url, as_of, reliability_pct),
+        as_of,
+        horizon_weeks=opts.horizon_weeks,
+        capacity_per_week=opts.capacity_per_week,
+        site_capacity=dict(opts.site_capacity),
+        exchange_stock=dict(opts.exchange_stock),
+        turnaround_days=dict(opts.turnaround_days) if opts.exchange_stock else None,
+        pair_within_h=opts.pair_within_h,
+    )
+
+
+@dataclass(frozen=True)
+class PlanOptions:
+    """The plan page's settings (kept in the session)."""
+
+    horizon_weeks: int = 12
+    capacity_per_week: int = 4
+    site_capacity: tuple[tuple[str, int], ...] = ()
+    exchange_stock: tuple[tuple[str, int], ...] = ()
+    turnaround_days: tuple[tuple[str, float], ...] = ()
+    pair_within_h: float | None = 500.0
+
+    def key(self) -> tuple:
+        """A hashable, cache-friendly form of these options."""
+        return (
+            self.horizon_weeks, self.capacity_per_week, self.site_capacity,
+            self.exchange_stock, self.turnaround_days, self.pair_within_h,
+        )  # fmt: skip
+
+    @classmethod
+    def from_key(cls, key: tuple) -> PlanOptions:
+        return cls(*key)
+
+
+def clear() -> None:
+    """Forget every cached frame (after an upload or a settings change)."""
+    for fn in (fleet, unit_report, settings, registry_text):
+        fn.clear()
+
+
+def upload(url: str | None, payload: bytes, name: str) -> service.FileResult:
+    """Store one uploaded file through service.upload; clear the caches if it changed data."""
+    if len(payload) > MAX_UPLOAD_BYTES:
+        size = len(payload) / 1024 / 1024
+        problem = service.Problem(
+            name, None, None, None,
+            f"file is {size:.1f} MB, larger than the {MAX_UPLOAD_MB} MB limit: split the "
+            "export into smaller files (for example one per month) and upload them one by one",
+        )  # fmt: skip
+        return service.FileResult(name, service.REJECTED, problems=(problem,))
+    result = service.upload(engine(url), payload, name)
+    if result.status == service.ACCEPTED:
+        clear()
+    return result
+
+
+def save_settings(url: str | None, values: dict) -> dict:
+    """Validate and store settings (service.save_settings) and clear the caches."""
+    saved = service.save_settings(engine(url), values)
+    clear()
+    return saved

@@ -1,0 +1,295 @@
+"""Pieces every page shares: the sidebar (as-of date, reliability, cautions), status
+chips and the readable form of the fleet table.
+"""
+
+from __future__ import annotations
+
+import html
+from dataclasses import dataclass
+from datetime import date
+
+import pandas as pd
+import streamlit as st
+
+from dashboards import charts, data
+
+CAUTION = (
+    "**Estimates only.** Remaining hours and due dates are estimates from logged loads "
+    "and case-drain trends. The makers' service limits, local codes and qualified "
+    "technicians decide when a pump or motor is rebuilt.\n\n"
+    "**Stored energy.** Pressurised hydraulic systems are dangerous to work on: lower "
+    "or block all loads and relieve the pressure before opening any line."
+)
+
+RELIABILITY_CHOICES = (90.0, 95.0, 96.0, 97.0, 98.0, 99.0, 99.5, 99.9, 99.95)
+"""Offered planning reliabilities [%] (ISO 281:2007 gives a1 for 90-99.95 %)."""
+
+FLAG_WORDS = {
+    "stale": "stale data",
+    "case_drain_step": "case-drain step",
+    "heavy_relief": "heavy relief use",
+    "few_wear_readings": "few drain readings",
+}
+
+TABLE_COLUMNS = {
+    "unit": "Unit",
+    "site": "Site",
+    "machine_type": "Machine type",
+    "position": "Position",
+    "component_model": "Model",
+    "status": "Status",
+    "remaining_h": "Remaining [h]",
+    "limiting": "Limited by",
+    "due_date": "Due date",
+    "consumed_fraction": "Life used",
+    "case_drain_level_lpm": "Case drain [L/min]",
+    "case_drain_limit_lpm": "Drain limit [L/min]",
+    "drain_to_limit": "Drain vs limit",
+    "utilisation_h_per_day": "Use [h/day]",
+    "data_age_days": "Data age [days]",
+    "flags": "Flags",
+}
+"""Columns of the fleet table as shown (source column -> heading with unit)."""
+
+
+@dataclass(frozen=True)
+class Context:
+    """What every page reads from the sidebar."""
+
+    url: str | None
+    as_of: date
+    reliability_pct: float
+
+
+def sidebar() -> Context:
+    """Draw the shared sidebar (call once per run, before the page) and return its values."""
+    url = data.db_url()
+    stored = data.settings(url)
+    default_r = float(stored.get("reliability_pct", 90.0))
+    choices = sorted(set(RELIABILITY_CHOICES) | {default_r})
+    with st.sidebar:
+        st.markdown("#### Planning basis")
+        as_of = st.date_input(
+            "As-of date", value=date.today(), key="as_of", format="YYYY-MM-DD",
+            help="Data up to the start of this day count; due dates are counted from it.",
+        )  # fmt: skip
+        reliability = st.select_slider(
+            "Planning reliability [%]", options=choices, value=default_r, key="reliability_pct",
+            help="Chance that a bearing survives the estimated hours (ISO 281 factor a1). "
+            "Higher reliability gives fewer hours.",
+        )  # fmt: skip
+        st.caption(f"Store: `{_safe_url(url)}`")
+        st.divider()
+        st.warning(CAUTION, icon=":material/warning:")
+    return Context(url, as_of, float(reliability))
+
+
+def context() -> Context:
+    """The sidebar values of this run (for pages)."""
+    state = st.session_state
+    return Context(
+        data.db_url(), state.get("as_of", date.today()), float(state.get("reliability_pct", 90.0))
+    )
+
+
+def _safe_url(url: str | None) -> str:
+    """The URL with any password masked."""
+    if not url:
+        return "default SQLite file"
+    if "@" in url and "://" in url:
+        scheme, rest = url.split("://", 1)
+        creds, host = rest.rsplit("@", 1)
+        return f"{scheme}://{creds.split(':', 1)[0]}:***@{host}"
+    return url
+
+
+def status_chips(fleet: pd.DataFrame) -> str:
+    """HTML row of status counts: a coloured marker, the band name and the count."""
+    counts = charts.status_count_frame(fleet)
+    chips = []
+    for band, n in zip(counts["status"], counts["count"], strict=True):
+        colour = charts.status_colour(band)
+        chips.append(
+            f'<div class="ds-chip" style="border-left:6px solid {colour}">'
+            f'<span class="ds-n">{int(n)}</span><span class="ds-band">{html.escape(band)}</span>'
+            "</div>"
+        )
+    return (
+        "<style>.ds-row{display:flex;gap:12px;flex-wrap:wrap;margin:4px 0 8px}"
+        ".ds-chip{background:#F5F7F9;padding:8px 16px 8px 12px;border-radius:4px;"
+        "min-width:110px}.ds-n{font-size:1.6rem;font-weight:600;margin-right:8px}"
+        ".ds-band{color:#4A5561}</style>"
+        f'<div class="ds-row">{"".join(chips)}</div>'
+    )
+
+
+def status_label(status: object) -> str:
+    """Status text with a marker whose shape differs by urgency (readable without colour)."""
+    key = charts.status_key(status)
+    marks = ("■■■", "■■□", "■□□", "□□□")
+    rank = charts.status_rank(key)
+    return f"{marks[rank] if rank < len(marks) else '–––'} {key}"
+
+
+def table_frame(fleet: pd.DataFrame) -> pd.DataFrame:
+    """The fleet table as shown: readable flags, status marks, drain/limit ratio."""
+    df = fleet.copy()
+    limit = pd.to_numeric(df["case_drain_limit_lpm"], errors="coerce")
+    level = pd.to_numeric(df["case_drain_level_lpm"], errors="coerce")
+    df["drain_to_limit"] = (level / limit).clip(lower=0, upper=1)
+    df["status"] = df["status"].map(status_label)
+    df["limiting"] = df["limiting"].fillna("—")
+    df["flags"] = df["flags"].map(_flag_text)
+    df["due_date"] = pd.to_datetime(df["due_date"])
+    return df[list(TABLE_COLUMNS)]
+
+
+def _flag_text(flags: object) -> str:
+    if flags is None or isinstance(flags, float):
+        return ""
+    return ", ".join(FLAG_WORDS.get(f, str(f)) for f in flags)
+
+
+_NUMBER_FORMATS = {
+    "remaining_h": "%,.0f",
+    "case_drain_level_lpm": "%.2f",
+    "case_drain_limit_lpm": "%.2f",
+    "utilisation_h_per_day": "%.1f",
+    "data_age_days": "%.0f",
+}
+
+
+def column_config() -> dict:
+    """st.dataframe column settings for :func:`table_frame`."""
+    cc = st.column_config
+    config: dict = dict(TABLE_COLUMNS)
+    config |= {k: cc.NumberColumn(TABLE_COLUMNS[k], format=f) for k, f in _NUMBER_FORMATS.items()}
+    config["unit"] = cc.TextColumn(TABLE_COLUMNS["unit"], pinned=True)
+    config["due_date"] = cc.DateColumn(TABLE_COLUMNS["due_date"], format="YYYY-MM-DD")
+    config["consumed_fraction"] = cc.ProgressColumn(
+        TABLE_COLUMNS["consumed_fraction"], min_value=0.0, max_value=1.0, format="percent",
+        help="Share of the rated bearing life (L10 at the planning reliability) used since "
+        "the last rebuild",
+    )  # fmt: skip
+    config["drain_to_limit"] = cc.ProgressColumn(
+        TABLE_COLUMNS["drain_to_limit"], min_value=0.0, max_value=1.0, format="percent",
+        help="Fitted case-drain level now as a share of the model's rebuild limit",
+    )  # fmt: skip
+    return config
+
+
+def show_error(message: str, problems: tuple = ()) -> None:
+    """A domain error as a red box with its problems listed."""
+    lines = [f"- {html.escape(str(p))}" for p in problems]
+    st.error("\n".join([message, *lines]))
+
+
+def options(fleet: pd.DataFrame, column: str) -> list[str]:
+    """Sorted distinct non-empty values of a column (for filter boxes)."""
+    return sorted({str(v) for v in fleet[column].dropna() if str(v)})
+
+
+def status_options(fleet: pd.DataFrame) -> list[str]:
+    """Status bands present in the fleet, most urgent first."""
+    return sorted(set(fleet["status"].map(charts.status_key)), key=charts.status_rank)
+
+
+def filter_fleet(
+    fleet: pd.DataFrame,
+    sites: list[str] | None = None,
+    bands: list[str] | None = None,
+    machine_types: list[str] | None = None,
+    models: list[str] | None = None,
+    search: str = "",
+) -> pd.DataFrame:
+    """Rows matching every given filter (empty filter: no restriction); order kept.
+
+    ``search`` matches part of the unit tag, ignoring case.
+    """
+    keep = pd.Series(True, index=fleet.index)
+    for column, wanted in (("site", sites), ("machine_type", machine_types),
+                           ("component_model", models)):  # fmt: skip
+        if wanted:
+            keep &= fleet[column].astype(str).isin(wanted)
+    if bands:
+        keep &= fleet["status"].map(charts.status_key).isin(bands)
+    if search and search.strip():
+        keep &= fleet["unit"].astype(str).str.contains(search.strip(), case=False, regex=False)
+    return fleet[keep]
+
+
+def export_frame(fleet: pd.DataFrame) -> pd.DataFrame:
+    """The fleet table for download: every status column, flags as text, no lists."""
+    out = fleet.copy()
+    out["flags"] = out["flags"].map(lambda f: ";".join(f) if isinstance(f, (list, tuple)) else "")
+    return out
+
+
+def status_row(status: pd.DataFrame, position: str) -> pd.Series | None:
+    """The fleet-status row of one position of a unit, or None."""
+    rows = status[status["position"] == position]
+    return rows.iloc[0] if len(rows) else None
+
+
+def model_caption(model: object) -> str:
+    """One line of rating data of a component model."""
+    parts = [
+        f"{model.name} ({model.kind})",
+        f"{model.displacement_cm3:g} cm³/rev",
+        f"L10 {model.rated_l10_h:,.0f} h at {model.rated_dp_bar:g} bar, "
+        f"{model.rated_speed_rpm:,.0f} rpm",
+        f"relief {model.relief_bar:g} bar",
+    ]
+    if model.cutoff_bar is not None:
+        parts.append(f"cut-off {model.cutoff_bar:g} bar")
+    return " · ".join(parts)
+
+
+def trend_line(detail: object, row: pd.Series | None) -> tuple[pd.DataFrame | None, float | None]:
+    """The Theil–Sen line with its band over this life's readings, and the hour meter at
+    which the fitted level reaches the limit (None without a positive trend)."""
+    trend = getattr(detail, "trend", None)
+    readings = detail.case_drain
+    if trend is None or readings.empty or pd.isna(trend.slope):
+        return None, None
+    used = readings[readings["used"].astype(bool)] if "used" in readings else readings
+    used = used.dropna(subset=["hour_meter", "normalised_lpm"])
+    if used.empty:
+        return None, None
+    now = float(row["hour_meter"]) if row is not None and pd.notna(row["hour_meter"]) else None
+    now = now if now is not None else float(used["hour_meter"].max())
+    crossing = now + trend.remaining_h if pd.notna(trend.remaining_h) else None
+    x_to = max(now, crossing if crossing is not None and crossing < now + 20000 else now)
+    line = charts.trend_frame(
+        trend.slope, trend.intercept, trend.slope_low, trend.slope_high,
+        float(used["hour_meter"].median()), float(used["normalised_lpm"].median()),
+        float(used["hour_meter"].min()), x_to,
+    )  # fmt: skip
+    return line, crossing
+
+
+def results_frame(results: list) -> pd.DataFrame:
+    """One row per uploaded file: name, result, what was stored, problem count."""
+    return pd.DataFrame(
+        {
+            "File": [r.name for r in results],
+            "Result": [r.status for r in results],
+            "Kind": [r.kind for r in results],
+            "Histograms stored": [r.histograms for r in results],
+            "Readings stored": [r.readings for r in results],
+            "Problems": [len(r.problems) for r in results],
+            "Summary": [r.summary for r in results],
+        }
+    )
+
+
+def problems_frame(problems: tuple) -> pd.DataFrame:
+    """The problems of a rejected file: line, column, value and what is expected."""
+    return pd.DataFrame(
+        {
+            "Line": pd.array([p.line for p in problems], dtype="Int64"),
+            "Column": [p.column or "" for p in problems],
+            "Value": [p.value or "" for p in problems],
+            "Problem": [p.message for p in problems],
+        }
+    )
