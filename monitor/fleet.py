@@ -1,0 +1,670 @@
+"""Fleet status: per-component remaining life, due dates, flags and the ranking.
+
+Pure: DataFrames in, a status DataFrame out. The inputs are the ledger running
+totals at a few points in time (see :mod:`monitor.snapshot`) and the case-drain
+readings of each component's current life; the life arithmetic follows the life
+model v1 of the design brief (consumed fraction, damage rate over the rate window,
+remaining bearing hours, normalised case-drain trend, utilisation, due date).
+
+All numbers are estimates. The makers' service limits, local codes and qualified
+technicians decide when a drive is rebuilt.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from datetime import UTC, date, datetime
+
+import numpy as np
+import pandas as pd
+
+from monitor import bearings, lifecycle, oil, wear
+
+RANK_COLUMNS = (
+    "unit",
+    "site",
+    "position",
+    "component_model",
+    "hour_meter",
+    "hours_since_rebuild",
+    "consumed_fraction",
+    "damage_rate_per_h",
+    "remaining_bearing_h",
+    "remaining_wear_h",
+    "remaining_wear_h_low",
+    "remaining_wear_h_high",
+    "remaining_h",
+    "limiting",
+    "utilisation_h_per_day",
+    "due_date",
+    "status",
+    "relief_hours",
+    "relief_heat_kwh",
+    "last_upload_at",
+    "data_age_days",
+    "flags",
+)
+"""The stable keys of ``drivespan rank --format json``, in order."""
+
+EXTRA_COLUMNS = (
+    "machine_type",
+    "component_id",
+    "case_drain_level_lpm",
+    "case_drain_limit_lpm",
+    "case_drain_slope_lpm_per_h",
+    "cutoff_hours",
+    "has_cutoff",
+)
+"""Further columns of the status frame (dashboard detail), after the rank keys."""
+
+STATUS_COLUMNS = RANK_COLUMNS + EXTRA_COLUMNS
+
+FLAG_STALE = "stale"
+FLAG_STEP = "case_drain_step"
+FLAG_RELIEF = "heavy_relief"
+FLAG_FEW = "few_wear_readings"
+FLAGS = (FLAG_STALE, FLAG_STEP, FLAG_RELIEF, FLAG_FEW)
+
+DEFAULT_LIMITS = dict(lifecycle.DEFAULT_STATUS_LIMITS_H)
+
+
+@dataclass(frozen=True)
+class StatusParams:
+    """Settings of one status computation.
+
+    Attributes
+    ----------
+    reliability_pct : float
+        Planning reliability for ISO 281 a1 [%], 90-99.95.
+    rate_window_h : float
+        Operating hours over which the damage rate is taken [h].
+    utilisation_days : float
+        Calendar days over which utilisation is taken [d].
+    stale_days : float
+        Data older than this raises the ``stale`` flag [d].
+    status_limits : mapping
+        Remaining-hours limits of the status bands [h] (see :mod:`monitor.lifecycle`).
+    case_drain_step_factor : float
+        Latest normalised reading above this multiple of the fitted level before it
+        raises ``case_drain_step`` [-] (1.5: common practice, no source).
+    heavy_relief_fraction : float
+        Share of window hours at relief, without a cut-off, that raises
+        ``heavy_relief`` [-] (0.01: common practice, no source).
+    min_wear_readings : int
+        Fewest case-drain readings for a wear trend [-].
+    """
+
+    reliability_pct: float = 90.0
+    rate_window_h: float = 500.0
+    utilisation_days: float = 30.0
+    stale_days: float = 14.0
+    status_limits: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_LIMITS))
+    case_drain_step_factor: float = 1.5
+    heavy_relief_fraction: float = 0.01
+    min_wear_readings: int = 3
+
+
+def as_of_instant(as_of: date) -> datetime:
+    """The start of the as-of day in UTC: data up to this instant count."""
+    return datetime(as_of.year, as_of.month, as_of.day, tzinfo=UTC)
+
+
+# --- bearing life ----------------------------------------------------------------------
+
+
+def _diff(df: pd.DataFrame, col: str, lower: str) -> np.ndarray:
+    """now_<col> - <lower>_<col>, with a missing lower point read as zero."""
+    now = df[f"now_{col}"].to_numpy(float)
+    low = np.nan_to_num(df[f"{lower}_{col}"].to_numpy(float), nan=0.0)
+    return np.where(np.isnan(now), 0.0, now - low)
+
+
+def _window_lower(df: pd.DataFrame) -> pd.DataFrame:
+    """Rate-window start: the window row, clamped so it is never before the rebuild."""
+    out = df.copy()
+    win_h = df["win_cum_hours"].to_numpy(float)
+    base_h = np.nan_to_num(df["base_cum_hours"].to_numpy(float), nan=0.0)
+    use_base = np.isnan(win_h) | (win_h < base_h)
+    for t in (
+        "cum_hours",
+        "cum_damage",
+        "cum_meter_hours",
+        "cum_relief_hours",
+        "cum_cutoff_hours",
+        "cum_relief_heat_kwh",
+    ):
+        w = df[f"win_{t}"].to_numpy(float)
+        b = df[f"base_{t}"].to_numpy(float)
+        out[f"lo_{t}"] = np.where(use_base, b, w)
+    return out
+
+
+def bearing_frame(inputs: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
+    """Consumed fraction, damage rate and remaining bearing hours per component.
+
+    Parameters
+    ----------
+    inputs : pandas.DataFrame
+        Rows of :func:`monitor.snapshot.status_inputs` (``now_*``, ``base_*``,
+        ``win_*``, ``month_*`` running totals).
+    params : StatusParams
+        Reliability [%], window [h] and utilisation period [d].
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``hours_since_rebuild [h], consumed_fraction [-], damage_rate_per_h [1/h],
+        remaining_bearing_h [h], window_hours [h], relief_hours [h], cutoff_hours [h],
+        relief_heat_kwh [kWh], utilisation_h_per_day [h/d]`` aligned with ``inputs``.
+
+    Notes
+    -----
+    The ledger holds damage at a1 = 1, so damage at the planning reliability is the
+    ledger damage divided by a1 (ISO 281:2007, reliability factor).
+    """
+    a1 = float(bearings.reliability_factor(params.reliability_pct))
+    df = _window_lower(inputs)
+    damage_life = _diff(df, "cum_damage", "base")
+    win_hours = _diff(df, "cum_hours", "lo")
+    win_damage = _diff(df, "cum_damage", "lo")
+    consumed = _consumed_fraction(damage_life, a1)
+    rate = _damage_rate_per_h(win_damage, win_hours, a1)
+    return pd.DataFrame(
+        {
+            "hours_since_rebuild": _diff(df, "cum_meter_hours", "base"),
+            "consumed_fraction": consumed,
+            "damage_rate_per_h": rate,
+            "remaining_bearing_h": lifecycle.remaining_bearing_h(consumed, rate),
+            "window_hours": win_hours,
+            "relief_hours": _diff(df, "cum_relief_hours", "lo"),
+            "cutoff_hours": _diff(df, "cum_cutoff_hours", "lo"),
+            "relief_heat_kwh": _diff(df, "cum_relief_heat_kwh", "lo"),
+            "utilisation_h_per_day": _utilisation_h_per_day(
+                _diff(df, "cum_meter_hours", "month"), params.utilisation_days
+            ),
+        },
+        index=inputs.index,
+    )
+
+
+# --- life arithmetic over running totals ----------------------------------------------
+# The same definitions as monitor.lifecycle.bearing_life / utilisation_h_per_day, taken
+# as differences of the ledger's running totals instead of sums over per-upload arrays
+# (tests/test_fleet.py checks the two agree).
+
+
+def _consumed_fraction(damage: np.ndarray, a1: float) -> np.ndarray:
+    """Consumed fraction = ledger damage since the rebuild (a1 = 1) / a1 [-]."""
+    return np.asarray(damage, float) / a1
+
+
+def _damage_rate_per_h(damage: np.ndarray, hours: np.ndarray, a1: float) -> np.ndarray:
+    """Window damage / a1 / window operating hours [1/h]; NaN without hours."""
+    h = np.asarray(hours, float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(h > 0, np.asarray(damage, float) / a1 / h, np.nan)
+
+
+def _utilisation_h_per_day(meter_hours: np.ndarray, days: float) -> np.ndarray:
+    """Hour-meter hours of uploads ending in the period / its length [h/d]."""
+    return np.asarray(meter_hours, float) / float(days)
+
+
+STATUS_BANDS = (*lifecycle.STATUS_BANDS, lifecycle.NO_ESTIMATE)
+"""Status band names, most urgent first, then the no-estimate band."""
+
+
+# --- case-drain wear -------------------------------------------------------------------
+
+
+def oil_viscosity_line(row: Mapping) -> tuple[float, float] | None:
+    """ASTM D341 line (A, B) of the unit's oil from a components row, or None if unknown."""
+    try:
+        return oil.oil_line_from_spec(
+            iso_vg=_num(row.get("oil_iso_vg")),
+            viscosity_index=_num(row.get("oil_viscosity_index")),
+            nu40_mm2s=_num(row.get("oil_nu40_mm2s")),
+            nu100_mm2s=_num(row.get("oil_nu100_mm2s")),
+        )
+    except ValueError:
+        return None
+
+
+def _num(v: object) -> float | None:
+    if v is None:
+        return None
+    try:
+        f = float(v)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return None
+    return None if math.isnan(f) else f
+
+
+def case_drain_limit_lpm(row: Mapping) -> float | None:
+    """Rebuild limit of the normalised case drain [L/min] of a components row, or None."""
+    lim = _num(row.get("m_case_drain_limit_lpm"))
+    if lim is not None:
+        return lim
+    factor, new = _num(row.get("m_case_drain_limit_factor")), _num(row.get("m_case_drain_new_lpm"))
+    return factor * new if factor is not None and new is not None else None
+
+
+def normalised_case_drain(
+    readings: pd.DataFrame, row: Mapping, line: tuple[float, float] | None
+) -> np.ndarray:
+    """Readings of one component normalised to its model's test conditions [L/min].
+
+    Flushing flow subtracted; pressure and viscosity scaling applied where the reading
+    records its conditions (see :func:`monitor.wear.normalise_case_drain_lpm`).
+    """
+    return wear.normalise_case_drain_lpm(
+        readings["case_drain_lpm"].to_numpy(float),
+        readings["test_pressure_bar"].to_numpy(float),
+        readings["oil_temp_c"].to_numpy(float),
+        ref_dp_bar=_num(row.get("m_case_drain_test_dp_bar")),
+        ref_temp_c=_num(row.get("m_case_drain_test_temp_c")),
+        oil_line=line,
+        flushing_lpm=_num(row.get("m_case_drain_flushing_lpm")) or 0.0,
+    )
+
+
+def _fit(
+    x: np.ndarray, y: np.ndarray, limit: float | None, now: float, params: StatusParams
+) -> wear.WearTrend | None:
+    if limit is not None:
+        return wear.case_drain_trend(
+            x, y, limit_lpm=limit, hour_meter_now_h=now, min_readings=params.min_wear_readings
+        )
+    if x.size < params.min_wear_readings or np.unique(x).size < 2:
+        return None
+    slope, intercept, low, high = wear.theil_sen(x, y)
+    nan = math.nan
+    return wear.WearTrend(
+        slope, intercept, low, high, intercept + slope * now, nan, nan, nan, n=int(x.size)
+    )
+
+
+def case_drain_step(x: np.ndarray, y: np.ndarray, params: StatusParams) -> bool:
+    """True if the latest reading exceeds the step factor times the level fitted before it.
+
+    The level before is the Theil-Sen line through the earlier readings at the latest
+    reading's hour meter, or, with fewer earlier readings than a trend needs, their
+    median (a rule of this project, common practice, no source).
+    """
+    if y.size < 2:
+        return False
+    px, py = x[:-1], y[:-1]
+    if py.size >= params.min_wear_readings and np.unique(px).size >= 2:
+        slope, intercept, _, _ = wear.theil_sen(px, py)
+        level = intercept + slope * x[-1]
+    else:
+        level = float(np.median(py))
+    return bool(level > 0 and y[-1] > params.case_drain_step_factor * level)
+
+
+def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
+    """Case-drain level, slope, remaining wear hours and step flag per component.
+
+    Parameters
+    ----------
+    inputs : pandas.DataFrame
+        Rows of :func:`monitor.snapshot.status_inputs`.
+    readings : pandas.DataFrame
+        Case-drain readings of the current lives (:func:`monitor.snapshot.readings_in_life`).
+    params : StatusParams
+        Trend and step settings.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``n_wear_readings, case_drain_level_lpm [L/min], case_drain_slope_lpm_per_h
+        [L/min/h], remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high [h],
+        case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``.
+    """
+    out = pd.DataFrame(
+        index=inputs.index,
+        data={
+            "n_wear_readings": 0,
+            "case_drain_level_lpm": np.nan,
+            "case_drain_slope_lpm_per_h": np.nan,
+            "remaining_wear_h": np.nan,
+            "remaining_wear_h_low": np.nan,
+            "remaining_wear_h_high": np.nan,
+            "case_drain_limit_lpm": [case_drain_limit_lpm(r) for r in inputs.to_dict("records")],
+            "case_drain_step": False,
+        },
+    )
+    groups = dict(tuple(readings.groupby("component_id", sort=False))) if len(readings) else {}
+    lines: dict[object, tuple[float, float] | None] = {}
+    for idx, row in zip(inputs.index, inputs.to_dict("records"), strict=True):
+        rd = groups.get(row["component_id"])
+        if rd is None:
+            continue
+        oil_name = row.get("oil_name")
+        if oil_name not in lines:
+            lines[oil_name] = oil_viscosity_line(row)
+        x = rd["hour_meter"].to_numpy(float)
+        y = normalised_case_drain(rd, row, lines[oil_name])
+        now = np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()])
+        trend = _fit(
+            x,
+            y,
+            out.at[idx, "case_drain_limit_lpm"]
+            if pd.notna(out.at[idx, "case_drain_limit_lpm"])
+            else None,
+            now,
+            params,
+        )
+        out.loc[idx, "n_wear_readings"] = int(x.size)
+        out.loc[idx, "case_drain_step"] = case_drain_step(x, y, params)
+        if trend is not None:
+            out.loc[
+                idx,
+                [
+                    "case_drain_level_lpm",
+                    "case_drain_slope_lpm_per_h",
+                    "remaining_wear_h",
+                    "remaining_wear_h_low",
+                    "remaining_wear_h_high",
+                ],
+            ] = [
+                trend.level_now,
+                trend.slope,
+                trend.remaining_h,
+                trend.remaining_h_low,
+                trend.remaining_h_high,
+            ]
+    return out
+
+
+# --- assembling the status -------------------------------------------------------------
+
+
+def _flags(df: pd.DataFrame, params: StatusParams) -> list[list[str]]:
+    frac = np.where(
+        df["window_hours"] > 0,
+        df["relief_hours"] / df["window_hours"].where(df["window_hours"] > 0, 1.0),
+        0.0,
+    )
+    stale = df["data_age_days"].isna() | (df["data_age_days"] > params.stale_days)
+    relief = (~df["has_cutoff"]) & (frac > params.heavy_relief_fraction)
+    few = df["case_drain_limit_lpm"].notna() & (df["n_wear_readings"] < params.min_wear_readings)
+    out = []
+    for s, st, r, f in zip(stale, df["case_drain_step"], relief, few, strict=True):
+        out.append([name for name, on in zip(FLAGS, (s, st, r, f), strict=True) if on])
+    return out
+
+
+def _limiting(bearing: pd.Series, wear_h: pd.Series) -> tuple[list[float], list]:
+    pairs = [lifecycle.limiting_mode(b, w) for b, w in zip(bearing, wear_h, strict=True)]
+    return [p[0] for p in pairs], [p[1] for p in pairs]
+
+
+def fleet_status(
+    inputs: pd.DataFrame, readings: pd.DataFrame, as_of: date, params: StatusParams
+) -> pd.DataFrame:
+    """Status of every component at the start of ``as_of``, most urgent first.
+
+    Parameters
+    ----------
+    inputs : pandas.DataFrame
+        :func:`monitor.snapshot.status_inputs` rows (component, model, oil, ledger points).
+    readings : pandas.DataFrame
+        :func:`monitor.snapshot.readings_in_life` rows.
+    as_of : datetime.date
+        The as-of day.
+    params : StatusParams
+        Settings.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns :data:`STATUS_COLUMNS` (hours [h], rate [1/h], utilisation [h/d],
+        heat [kWh], flows [L/min], data age [d]); NaN where there is no estimate.
+    """
+    if inputs.empty:
+        return pd.DataFrame(columns=list(STATUS_COLUMNS))
+    inputs = inputs.reset_index(drop=True)
+    df = pd.concat([bearing_frame(inputs, params), wear_frame(inputs, readings, params)], axis=1)
+    t = as_of_instant(as_of)
+    last = pd.to_datetime(inputs["now_period_end"], utc=True)
+    df["last_upload_at"] = [None if pd.isna(v) else v.to_pydatetime() for v in last]
+    df["data_age_days"] = (pd.Timestamp(t) - last).dt.total_seconds().to_numpy() / 86400.0
+    df["has_cutoff"] = inputs["m_cutoff_bar"].notna().to_numpy()
+    df["flags"] = _flags(df, params)
+    df["remaining_h"], df["limiting"] = _limiting(df["remaining_bearing_h"], df["remaining_wear_h"])
+    df["status"] = lifecycle.status_band(df["remaining_h"].to_numpy(float), **params.status_limits)
+    df["due_date"] = [
+        lifecycle.due_date(as_of, r, u)
+        for r, u in zip(df["remaining_h"], df["utilisation_h_per_day"], strict=True)
+    ]
+    df["hour_meter"] = inputs["now_hour_meter_end"].to_numpy(float)
+    for col in ("unit", "site", "position", "machine_type", "component_id"):
+        df[col] = inputs[col].to_numpy()
+    df["component_model"] = inputs["m_name"].to_numpy()
+    return sort_status(df[list(STATUS_COLUMNS)])
+
+
+def sort_status(df: pd.DataFrame) -> pd.DataFrame:
+    """Most urgent first: remaining hours ascending (no estimate last), then due date,
+    unit tag and position."""
+    key = pd.DataFrame(
+        {
+            "n": df["remaining_h"].isna(),
+            "r": df["remaining_h"].fillna(np.inf),
+            "d": [pd.Timestamp(d) if d is not None else pd.Timestamp.max for d in df["due_date"]],
+            "u": df["unit"],
+            "p": df["position"],
+        }
+    )
+    order = key.sort_values(["n", "r", "d", "u", "p"], kind="stable").index
+    return df.loc[order].reset_index(drop=True)
+
+
+def _plain(v: object) -> object:
+    if v is None:
+        return None
+    if isinstance(v, (list, tuple)):
+        return [str(x) for x in v]
+    if isinstance(v, (datetime, pd.Timestamp)):
+        return None if pd.isna(v) else pd.Timestamp(v).isoformat()
+    if isinstance(v, date):
+        return v.isoformat()
+    if isinstance(v, (np.bool_, bool)):
+        return bool(v)
+    if isinstance(v, (np.integer,)):
+        return int(v)
+    if isinstance(v, (float, np.floating)):
+        return float(v) if math.isfinite(v) else None
+    return v
+
+
+def rank_records(df: pd.DataFrame) -> list[dict]:
+    """JSON-ready records with exactly :data:`RANK_COLUMNS` (NaN/inf -> None, ISO dates)."""
+    return [{k: _plain(rec[k]) for k in RANK_COLUMNS} for rec in df.to_dict("records")]
+
+
+# --- one unit in detail ----------------------------------------------------------------
+
+ESTIMATE_NOTICE = (
+    "These figures are estimates from logged loads and case-drain trends. The maker's "
+    "service limits, local codes and qualified technicians decide when a pump or motor "
+    "is rebuilt. Pressurised hydraulic systems are dangerous: isolate and relieve all "
+    "pressure before any work, and leave it to trained people."
+)
+
+
+def window_rows(life_rows: pd.DataFrame, rate_window_h: float) -> pd.DataFrame:
+    """The most recent ledger rows whose operating hours add up to the rate window [h]."""
+    if life_rows.empty:
+        return life_rows
+    from_end = life_rows["hours"].to_numpy(float)[::-1].cumsum()[::-1]
+    # keep rows up to and including the first (from the end) that reaches the window
+    before = from_end - life_rows["hours"].to_numpy(float)
+    return life_rows[before < rate_window_h]
+
+
+def window_spectrum(hists: list) -> pd.DataFrame:
+    """Hours per pressure band summed over histograms (speed bands summed out) [h]."""
+    parts = []
+    for h in hists:
+        hours = np.asarray(h.hours, float)
+        if hours.ndim == 2:
+            hours = hours.sum(axis=1)
+        parts.append(
+            pd.DataFrame(
+                {
+                    "pressure_low_bar": h.pressure_low_bar,
+                    "pressure_high_bar": h.pressure_high_bar,
+                    "hours": hours,
+                }
+            )
+        )
+    if not parts:
+        return pd.DataFrame(columns=["pressure_low_bar", "pressure_high_bar", "hours"])
+    both = pd.concat(parts, ignore_index=True)
+    return (
+        both.groupby(["pressure_low_bar", "pressure_high_bar"], as_index=False)["hours"]
+        .sum()
+        .sort_values("pressure_low_bar", ignore_index=True)
+    )
+
+
+def life_curve(
+    life_rows: pd.DataFrame, status_row: Mapping, params: StatusParams
+) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Consumed fraction per upload since the rebuild, and its projection to end of life.
+
+    Returns
+    -------
+    tuple of pandas.DataFrame
+        ``(hour_meter [h], consumed_fraction [-])`` per upload, and two rows from now to
+        consumed fraction 1 at the current damage rate (empty without a rate).
+    """
+    a1 = float(bearings.reliability_factor(params.reliability_pct))
+    life = pd.DataFrame(
+        {
+            "hour_meter": life_rows["hour_meter_end"].to_numpy(float),
+            "consumed_fraction": life_rows["damage"].cumsum().to_numpy(float) / a1,
+        }
+    )
+    rem = _num(status_row.get("remaining_bearing_h"))
+    hm = _num(status_row.get("hour_meter"))
+    proj = pd.DataFrame(columns=["hour_meter", "consumed_fraction"])
+    if rem is not None and hm is not None:
+        c = float(status_row["consumed_fraction"])
+        proj = pd.DataFrame({"hour_meter": [hm, hm + rem], "consumed_fraction": [c, max(c, 1.0)]})
+    return life, proj
+
+
+def case_drain_detail(
+    readings: pd.DataFrame,
+    row: Mapping,
+    rebuilt_at: object,
+    status_row: Mapping,
+    params: StatusParams,
+) -> tuple[pd.DataFrame, wear.WearTrend | None]:
+    """Every case-drain reading of a component (raw and normalised) and its current trend."""
+    rd = readings[readings["case_drain_lpm"].notna()].reset_index(drop=True)
+    norm = normalised_case_drain(rd, row, oil_viscosity_line(row)) if len(rd) else []
+    used = (
+        np.ones(len(rd), bool)
+        if rebuilt_at is None
+        else (rd["taken_at"] >= pd.Timestamp(rebuilt_at)).to_numpy()
+    )
+    table = pd.DataFrame(
+        {
+            "taken_at": rd["taken_at"],
+            "hour_meter": rd["hour_meter"],
+            "case_drain_lpm": rd["case_drain_lpm"],
+            "normalised_lpm": np.asarray(norm, float),
+            "used": used,
+        }
+    )
+    x = table.loc[table["used"], "hour_meter"].to_numpy(float)
+    y = table.loc[table["used"], "normalised_lpm"].to_numpy(float)
+    now = _num(status_row.get("hour_meter"))
+    now = max(now if now is not None else -np.inf, x.max() if x.size else -np.inf)
+    trend = _fit(x, y, case_drain_limit_lpm(row), now, params) if x.size else None
+    if trend is not None and math.isnan(trend.slope):
+        trend = None
+    return table, trend
+
+
+def relief_monthly(rows: pd.DataFrame) -> pd.DataFrame:
+    """Relief hours, cut-off hours and relief heat per calendar month (UTC) of ledger rows."""
+    cols = ["relief_hours", "cutoff_hours", "relief_heat_kwh"]
+    if rows.empty:
+        return pd.DataFrame(columns=["month", *cols])
+    month = rows["period_end"].dt.tz_convert("UTC").dt.tz_localize(None).dt.to_period("M")
+    g = rows.assign(month=month).groupby("month", as_index=False)[cols].sum()
+    g["month"] = [p.to_timestamp().date() for p in g["month"]]
+    return g
+
+
+def oil_samples(readings: pd.DataFrame) -> pd.DataFrame:
+    """Oil cleanliness samples: taken_at, iso4406 and its scale numbers (None for '-')."""
+    rd = readings[readings["iso4406"].notna()]
+    rows = []
+    for taken, code in zip(rd["taken_at"], rd["iso4406"], strict=True):
+        try:
+            r4, r6, r14 = oil.parse_iso4406(code)
+        except ValueError:
+            r4 = r6 = r14 = None
+        rows.append({"taken_at": taken, "iso4406": code, "r4": r4, "r6": r6, "r14": r14})
+    return pd.DataFrame(rows, columns=["taken_at", "iso4406", "r4", "r6", "r14"])
+
+
+_FLAG_TEXT = {
+    FLAG_STALE: "no upload for {age} days: the estimate may be out of date",
+    FLAG_STEP: "the latest case-drain reading jumped above {step:g} times the trend "
+    "before it: check for sudden damage",
+    FLAG_RELIEF: "{rel:.1f} h at relief pressure in the rate window and no pressure "
+    "cut-off: heavy heat load on the oil",
+    FLAG_FEW: "fewer than {n} case-drain readings since the last rebuild: no wear trend yet",
+}
+
+
+def _sentence(r: Mapping, params: StatusParams) -> str:
+    name = f"{r['position']} ({r['component_model']})"
+    if r["limiting"] is None:
+        text = f"{name}: no estimate (no recent operation and no wear trend)"
+    else:
+        why = (
+            "bearing fatigue"
+            if r["limiting"] == "bearing"
+            else "case-drain wear reaching its limit"
+        )
+        text = (
+            f"{name}: about {r['remaining_h']:,.0f} h left, limited by {why}; "
+            f"{100 * r['consumed_fraction']:.0f} % of bearing life used since the last "
+            f"rebuild at {params.reliability_pct:g} % reliability"
+        )
+        if r["due_date"] is not None:
+            text += (
+                f"; due around {r['due_date'].isoformat()} at "
+                f"{r['utilisation_h_per_day']:.1f} h/day"
+            )
+    return text + "."
+
+
+def unit_summary(status: pd.DataFrame, params: StatusParams) -> list[str]:
+    """Plain-words sentences on why each component of a unit stands where it does."""
+    out = []
+    for r in status.to_dict("records"):
+        out.append(_sentence(r, params))
+        age = r["data_age_days"]
+        for flag in r["flags"]:
+            out.append(
+                f"  {r['position']}: "
+                + _FLAG_TEXT[flag].format(
+                    age="no data" if age != age else f"{age:.0f}",
+                    step=params.case_drain_step_factor,
+                    rel=r["relief_hours"],
+                    n=params.min_wear_readings,
+                )
+            )
+    out.append(ESTIMATE_NOTICE)
+    return out
