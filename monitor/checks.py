@@ -90,15 +90,29 @@ def _component_lookup(conn: Connection, tags: set[str]) -> dict[str, dict[str, t
 
 def _resolve(lookup, unit, position, name, line, problems):  # noqa: ANN001, ANN202
     if unit not in lookup:
-        problems.append(Problem(name, line, "unit", unit, "unit is not in the fleet registry: "
-                                "add it to the registry and import it first "
-                                "(drivespan fleet import FILE)"))
+        problems.append(
+            Problem(
+                name,
+                line,
+                "unit",
+                unit,
+                "unit is not in the fleet registry: "
+                "add it to the registry and import it first "
+                "(drivespan fleet import FILE)",
+            )
+        )
         return None
     if position not in lookup[unit]:
         known = ", ".join(sorted(lookup[unit])) or "none"
-        problems.append(Problem(name, line, "position", position,
-                                f"unit {unit} has no component at this position "
-                                f"(registered positions: {known})"))
+        problems.append(
+            Problem(
+                name,
+                line,
+                "position",
+                position,
+                f"unit {unit} has no component at this position (registered positions: {known})",
+            )
+        )
         return None
     return lookup[unit][position]
 
@@ -118,9 +132,15 @@ def _new_histogram_frame(plan: UploadPlan) -> pd.DataFrame:
 def _stored_histograms(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
     t, f, up = store.histogram, store.upload_file, store.upload
     q = (
-        select(t.c.component_id, t.c.quantity, t.c.period_start.label("start"),
-               t.c.period_end.label("end"), t.c.content_sha256.label("sha"),
-               t.c.upload_id, f.c.name.label("file"))
+        select(
+            t.c.component_id,
+            t.c.quantity,
+            t.c.period_start.label("start"),
+            t.c.period_end.label("end"),
+            t.c.content_sha256.label("sha"),
+            t.c.upload_id,
+            f.c.name.label("file"),
+        )
         .join(up, up.c.id == t.c.upload_id)
         .join(f, f.c.id == up.c.file_id)
         .where(
@@ -148,12 +168,18 @@ def _check_overlaps(conn: Connection, plan: UploadPlan, name: str) -> None:
     same = hit[(hit["sha"] == hit["sha_s"]) & (hit["start"] == hit["start_s"])]
     drop = set(same["idx"])
     for row in hit[~hit["idx"].isin(drop)].itertuples():
-        plan.problems.append(Problem(
-            name, row.line, "period_start", str(row.start.isoformat()),
-            f"period overlaps stored upload #{row.upload_id} from file {row.file!r} "
-            f"({row.start_s.isoformat()} to {row.end_s.isoformat()}) with different "
-            "content: each period of a drive loop is stored once; remove the overlap "
-            "or correct the export"))
+        plan.problems.append(
+            Problem(
+                name,
+                row.line,
+                "period_start",
+                str(row.start.isoformat()),
+                f"period overlaps stored upload #{row.upload_id} from file {row.file!r} "
+                f"({row.start_s.isoformat()} to {row.end_s.isoformat()}) with different "
+                "content: each period of a drive loop is stored once; remove the overlap "
+                "or correct the export",
+            )
+        )
     if drop:
         plan.histograms = [x for i, x in enumerate(plan.histograms) if i not in drop]
         plan.skipped += len(drop)
@@ -164,8 +190,18 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
     if not plan.histograms:
         return
     new = pd.DataFrame(
-        [(plan.component_unit[c], h.period_start, h.period_end, h.hour_meter_start,
-          h.hour_meter_end, h.line, True) for h, c, _ in plan.histograms],
+        [
+            (
+                plan.component_unit[c],
+                h.period_start,
+                h.period_end,
+                h.hour_meter_start,
+                h.hour_meter_end,
+                h.line,
+                True,
+            )
+            for h, c, _ in plan.histograms
+        ],
         columns=["unit_id", "start", "end", "hm_start", "hm_end", "line", "new"],
     ).drop_duplicates(["unit_id", "start", "end", "hm_start", "hm_end"])
     for col in ("start", "end"):
@@ -174,30 +210,41 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
     changes = _meter_changes(conn, new["unit_id"].unique())
     df = pd.concat([stored, new], ignore_index=True).sort_values(["unit_id", "start", "end"])
     prev = df.groupby("unit_id")[["hm_end", "end", "new"]].shift(1)
-    back = df[(df["hm_start"] < prev["hm_end"] - HOUR_METER_TOLERANCE_H)
-              & (df["new"] | prev["new"].fillna(False).astype(bool))]
+    back = df[
+        (df["hm_start"] < prev["hm_end"] - HOUR_METER_TOLERANCE_H)
+        & (df["new"] | prev["new"].fillna(False).astype(bool))
+    ]
     for idx, row in back.iterrows():
         if _change_between(changes, row.unit_id, prev.loc[idx, "end"], row.start):
             continue
-        plan.problems.append(Problem(
-            name, None if pd.isna(row.line) else int(row.line), "hour_meter_start",
-            f"{row.hm_start:g}",
-            f"hour meter runs backwards: {prev.loc[idx, 'hm_end']:g} h at "
-            f"{prev.loc[idx, 'end'].isoformat()} then {row.hm_start:g} h at "
-            f"{row.start.isoformat()}; if the meter was changed, record an "
-            "hour_meter_change service event in the registry first"))
+        plan.problems.append(
+            Problem(
+                name,
+                None if pd.isna(row.line) else int(row.line),
+                "hour_meter_start",
+                f"{row.hm_start:g}",
+                f"hour meter runs backwards: {prev.loc[idx, 'hm_end']:g} h at "
+                f"{prev.loc[idx, 'end'].isoformat()} then {row.hm_start:g} h at "
+                f"{row.start.isoformat()}; if the meter was changed, record an "
+                "hour_meter_change service event in the registry first",
+            )
+        )
 
 
 def _stored_uploads(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
     t = store.upload
     lo = new["start"].min().to_pydatetime() - NEIGHBOUR_WINDOW
     hi = new["end"].max().to_pydatetime() + NEIGHBOUR_WINDOW
-    q = select(t.c.unit_id, t.c.period_start, t.c.period_end, t.c.hour_meter_start,
-               t.c.hour_meter_end).where(
+    q = select(
+        t.c.unit_id, t.c.period_start, t.c.period_end, t.c.hour_meter_start, t.c.hour_meter_end
+    ).where(
         t.c.unit_id.in_([int(x) for x in new["unit_id"].unique()]),
-        t.c.period_start >= lo, t.c.period_start <= hi)
-    df = pd.DataFrame(conn.execute(q).all(),
-                      columns=["unit_id", "start", "end", "hm_start", "hm_end"])
+        t.c.period_start >= lo,
+        t.c.period_start <= hi,
+    )
+    df = pd.DataFrame(
+        conn.execute(q).all(), columns=["unit_id", "start", "end", "hm_start", "hm_end"]
+    )
     df["start"] = pd.to_datetime(df["start"], utc=True)
     df["end"] = pd.to_datetime(df["end"], utc=True)
     df["new"] = False
@@ -208,7 +255,8 @@ def _stored_uploads(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
 def _meter_changes(conn: Connection, unit_ids) -> pd.DataFrame:  # noqa: ANN001
     t = store.service_event
     q = select(t.c.unit_id, t.c.at).where(
-        and_(t.c.kind == "hour_meter_change", t.c.unit_id.in_([int(u) for u in unit_ids])))
+        and_(t.c.kind == "hour_meter_change", t.c.unit_id.in_([int(u) for u in unit_ids]))
+    )
     df = pd.DataFrame(conn.execute(q).all(), columns=["unit_id", "at"])
     df["at"] = pd.to_datetime(df["at"], utc=True)
     return df
@@ -225,11 +273,20 @@ def _check_readings(conn: Connection, plan: UploadPlan, name: str) -> None:
         return
     t = store.reading
     comps = list({c for _, c in plan.readings})
-    rows = conn.execute(select(t.c.component_id, t.c.taken_at, t.c.case_drain_lpm,
-                               t.c.test_pressure_bar, t.c.oil_temp_c, t.c.iso4406)
-                        .where(t.c.component_id.in_(comps))).all()
-    stored = {(r[0], pd.Timestamp(r[1], tz="UTC") if r[1].tzinfo is None
-               else pd.Timestamp(r[1])): r[2:] for r in rows}
+    rows = conn.execute(
+        select(
+            t.c.component_id,
+            t.c.taken_at,
+            t.c.case_drain_lpm,
+            t.c.test_pressure_bar,
+            t.c.oil_temp_c,
+            t.c.iso4406,
+        ).where(t.c.component_id.in_(comps))
+    ).all()
+    stored = {
+        (r[0], pd.Timestamp(r[1], tz="UTC") if r[1].tzinfo is None else pd.Timestamp(r[1])): r[2:]
+        for r in rows
+    }
     keep = []
     for r, comp in plan.readings:
         key = (comp, pd.Timestamp(r.taken_at))
@@ -240,10 +297,16 @@ def _check_readings(conn: Connection, plan: UploadPlan, name: str) -> None:
         if _same_values(stored[key], values):
             plan.skipped += 1
         else:
-            plan.problems.append(Problem(
-                name, r.line, "taken_at", r.taken_at.isoformat(),
-                f"a different reading of {r.unit} {r.position} at this time is already "
-                "stored: correct the time or the values"))
+            plan.problems.append(
+                Problem(
+                    name,
+                    r.line,
+                    "taken_at",
+                    r.taken_at.isoformat(),
+                    f"a different reading of {r.unit} {r.position} at this time is already "
+                    "stored: correct the time or the values",
+                )
+            )
     plan.readings = keep
 
 

@@ -62,17 +62,22 @@ def build_demo(
     folder.mkdir(parents=True)
     (folder / MARKER).write_text("made by drivespan demo; safe to delete\n")
     end = end_date or date.today() - timedelta(days=1)
-    fleet = generate(folder / "exports", seed=seed, end_date=end, years=years,
-                     units_scale=units_scale)
+    fleet = generate(
+        folder / "exports", seed=seed, end_date=end, years=years, units_scale=units_scale
+    )
     db_url = f"sqlite:///{(folder / 'demo.db').resolve()}"
     engine = service.init_db(db_url)
-    results = [service.upload(engine, Path(fleet.registry_path).read_bytes(),
-                              Path(fleet.registry_path).name)]
+    results = [
+        service.upload(
+            engine, Path(fleet.registry_path).read_bytes(), Path(fleet.registry_path).name
+        )
+    ]
     files = [Path(p) for p in fleet.export_paths]
     for i, path in enumerate(files, 1):
         results.append(service.upload(engine, path.read_bytes(), path.name))
         if progress is not None:
             progress(path.name, i, len(files))
     engine.dispose()
-    return DemoResult(folder.resolve(), db_url, end + timedelta(days=1), tuple(results),
-                      dict(fleet.stories))
+    return DemoResult(
+        folder.resolve(), db_url, end + timedelta(days=1), tuple(results), dict(fleet.stories)
+    )

@@ -113,7 +113,9 @@ def _upsert_unit(conn: Connection, u: UnitSpec, ids: dict) -> UpsertCounts:
     return counts
 
 
-def _upsert_service(conn: Connection, unit_id: int, comp_ids: dict, ev: ServiceSpec) -> UpsertCounts:
+def _upsert_service(
+    conn: Connection, unit_id: int, comp_ids: dict, ev: ServiceSpec
+) -> UpsertCounts:
     comp_id = comp_ids.get(ev.position) if ev.position else None
     if ev.position and comp_id is None:
         comp_id = conn.execute(

@@ -12,14 +12,27 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parent.parent
-PURE = ["bearings", "oil", "spectrum", "wear", "relief", "hydraulics", "lifecycle",
-        "fleet", "planning"]
+PURE = [
+    "bearings",
+    "oil",
+    "spectrum",
+    "wear",
+    "relief",
+    "hydraulics",
+    "lifecycle",
+    "fleet",
+    "planning",
+]
 FORBIDDEN_EVERYWHERE_PURE = {"sqlalchemy", "streamlit", "click", "alembic", "psycopg"}
 NO_PANDAS = {"bearings", "oil", "spectrum", "wear", "relief", "hydraulics", "lifecycle"}
-NO_SQL = {"cli": {"sqlalchemy"}, "ingest": {"sqlalchemy", "streamlit", "click"},
-          "registry": {"sqlalchemy", "streamlit", "click"},
-          "units": {"sqlalchemy", "streamlit", "click"},
-          "service": {"streamlit", "click"}, "store": {"streamlit", "click"}}
+NO_SQL = {
+    "cli": {"sqlalchemy"},
+    "ingest": {"sqlalchemy", "streamlit", "click"},
+    "registry": {"sqlalchemy", "streamlit", "click"},
+    "units": {"sqlalchemy", "streamlit", "click"},
+    "service": {"streamlit", "click"},
+    "store": {"streamlit", "click"},
+}
 
 
 def imported_roots(path: Path) -> set[str]:
@@ -35,8 +48,10 @@ def imported_roots(path: Path) -> set[str]:
 
 def calls_open(path: Path) -> bool:
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    return any(isinstance(n, ast.Call) and isinstance(n.func, ast.Name) and n.func.id == "open"
-               for n in ast.walk(tree))
+    return any(
+        isinstance(n, ast.Call) and isinstance(n.func, ast.Name) and n.func.id == "open"
+        for n in ast.walk(tree)
+    )
 
 
 def _existing(names):
@@ -46,8 +61,9 @@ def _existing(names):
 @pytest.mark.parametrize("name", _existing(PURE))
 def test_pure_modules_import_no_storage_ui_or_cli(name):
     path = ROOT / "monitor" / f"{name}.py"
-    bad = imported_roots(path) & (FORBIDDEN_EVERYWHERE_PURE | ({"pandas"} if name in NO_PANDAS
-                                                               else set()))
+    bad = imported_roots(path) & (
+        FORBIDDEN_EVERYWHERE_PURE | ({"pandas"} if name in NO_PANDAS else set())
+    )
     assert not bad, f"monitor/{name}.py imports {sorted(bad)}"
     assert not calls_open(path), f"monitor/{name}.py opens files"
 

@@ -14,17 +14,28 @@ from sqlalchemy import select
 from monitor import queries, service, store
 
 DATA = Path(__file__).parent / "data"
-HEADER = ("unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
-          "pressure_low_bar,pressure_high_bar,hours\n")
+HEADER = (
+    "unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
+    "pressure_low_bar,pressure_high_bar,hours\n"
+)
 
 
-def day_csv(unit: str, position: str, day: int, hm0: float, hm1: float,
-            bands=((0, 100), (100, 200), (200, 300)), split=(0.5, 0.3, 0.2)) -> bytes:
+def day_csv(
+    unit: str,
+    position: str,
+    day: int,
+    hm0: float,
+    hm1: float,
+    bands=((0, 100), (100, 200), (200, 300)),
+    split=(0.5, 0.3, 0.2),
+) -> bytes:
     """One daily 1-D histogram of an invented unit as histogram-CSV bytes."""
     start, end = f"2026-04-{day:02d}T00:00:00Z", f"2026-04-{day + 1:02d}T00:00:00Z"
     total = hm1 - hm0
-    rows = [f"{unit},{position},{start},{end},{hm0},{hm1},pressure,{lo},{hi},{total * f:.6f}\n"
-            for (lo, hi), f in zip(bands, split, strict=True)]
+    rows = [
+        f"{unit},{position},{start},{end},{hm0},{hm1},pressure,{lo},{hi},{total * f:.6f}\n"
+        for (lo, hi), f in zip(bands, split, strict=True)
+    ]
     return (HEADER + "".join(rows)).encode()
 
 
@@ -77,28 +88,36 @@ def test_same_file_twice_counts_once(engine):
 
 
 def test_unknown_unit_is_rejected_with_a_hint(engine):
-    assert_rejected_unchanged(engine, day_csv("ZZ-999", "left", 1, 10, 14), "x.csv",
-                              "ZZ-999", "not in the fleet registry", "fleet import")
+    assert_rejected_unchanged(
+        engine,
+        day_csv("ZZ-999", "left", 1, 10, 14),
+        "x.csv",
+        "ZZ-999",
+        "not in the fleet registry",
+        "fleet import",
+    )
 
 
 def test_unknown_position_names_the_registered_ones(engine):
-    assert_rejected_unchanged(engine, day_csv("LR-101", "middle", 1, 10, 14), "x.csv",
-                              "middle", "left, right")
+    assert_rejected_unchanged(
+        engine, day_csv("LR-101", "middle", 1, 10, 14), "x.csv", "middle", "left, right"
+    )
 
 
 def test_overlap_with_stored_upload_of_different_content_names_it(engine):
     first = day_csv("LR-101", "left", 1, 5000, 5008)
     assert service.upload(engine, first, "day1.csv").status == service.ACCEPTED
     changed = day_csv("LR-101", "left", 1, 5000, 5008, split=(0.2, 0.3, 0.5))
-    assert_rejected_unchanged(engine, changed, "day1-again.csv",
-                              "overlaps stored upload", "day1.csv")
+    assert_rejected_unchanged(
+        engine, changed, "day1-again.csv", "overlaps stored upload", "day1.csv"
+    )
 
 
 def test_identical_histogram_in_another_file_is_skipped_not_counted_twice(engine):
     day1 = day_csv("LR-101", "left", 1, 5000, 5008)
     day2 = day_csv("LR-101", "left", 2, 5008, 5015)
     assert service.upload(engine, day1, "day1.csv").status == service.ACCEPTED
-    both = day1 + day2[len(HEADER):]
+    both = day1 + day2[len(HEADER) :]
     res = service.upload(engine, both, "days1-2.csv")
     assert res.status == service.ACCEPTED and res.skipped == 1 and res.histograms == 1
     with engine.connect() as conn:
@@ -106,10 +125,14 @@ def test_identical_histogram_in_another_file_is_skipped_not_counted_twice(engine
 
 
 def test_hour_meter_running_backwards_against_stored_history(engine):
-    assert service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status == service.ACCEPTED
+    assert (
+        service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status
+        == service.ACCEPTED
+    )
     later_but_lower = day_csv("LR-101", "left", 6, 4990, 4998)
-    assert_rejected_unchanged(engine, later_but_lower, "d6.csv", "hour meter runs backwards",
-                              "hour_meter_change")
+    assert_rejected_unchanged(
+        engine, later_but_lower, "d6.csv", "hour meter runs backwards", "hour_meter_change"
+    )
 
 
 def test_hour_meter_change_event_allows_a_reset(engine):
@@ -125,8 +148,7 @@ def test_hour_meter_change_event_allows_a_reset(engine):
 
 def test_dry_run_validates_and_stores_nothing(engine):
     before = snapshot(engine)
-    res = service.upload(engine, (DATA / "hist_pressure.csv").read_bytes(), "h.csv",
-                         dry_run=True)
+    res = service.upload(engine, (DATA / "hist_pressure.csv").read_bytes(), "h.csv", dry_run=True)
     assert res.status == service.VALID and res.histograms == 3
     assert snapshot(engine) == before
 
@@ -145,8 +167,13 @@ def test_csv_semicolon_and_json_store_identical_histograms(tmp_path):
         assert service.upload(eng, (DATA / name).read_bytes(), name).status == "accepted"
         with eng.connect() as conn:
             t = store.histogram
-            blobs.append(conn.execute(select(t.c.pressure_bands, t.c.hours, t.c.content_sha256)
-                                      .order_by(t.c.component_id)).all())
+            blobs.append(
+                conn.execute(
+                    select(t.c.pressure_bands, t.c.hours, t.c.content_sha256).order_by(
+                        t.c.component_id
+                    )
+                ).all()
+            )
         eng.dispose()
     assert blobs[0] == blobs[1]
 
