@@ -311,40 +311,40 @@ class _Downtime:
     note: str = ""
 
 
-def _sort_key(comp: pd.DataFrame, i: int) -> tuple:
-    row = comp.loc[i]
+def _sort_key(rows: list, i: int) -> tuple:
+    row = rows[i]
     due = row.due_days if not math.isnan(row.due_days) else math.inf
     rem = row.remaining_h if not math.isnan(row.remaining_h) else math.inf
     return (due, rem, row.unit, row.position)
 
 
-def _downtime(comp: pd.DataFrame, members: list[int], note: str = "") -> _Downtime:
-    anchor = comp.loc[members[0]]
+def _downtime(rows: list, members: list[int], note: str = "") -> _Downtime:
+    anchor = rows[members[0]]
     return _Downtime(
         members=members,
         site=anchor.site,
-        models=Counter(comp.loc[members, "component_model"]),
-        key=_sort_key(comp, members[0]),
+        models=Counter(rows[i].component_model for i in members),
+        key=_sort_key(rows, members[0]),
         due_week=max(0, int(anchor.due_days // 7)),
         note=note,
     )
 
 
-def _unit_downtimes(comp: pd.DataFrame, rows: list[int], settings: PlanSettings) -> list[list]:
+def _unit_downtimes(rows: list, unit_rows: list[int], settings: PlanSettings) -> list[list]:
     """Group the due components of one unit into downtimes (anchor first)."""
     end_days = 7 * settings.horizon_weeks
-    rows = sorted(rows, key=lambda i: _sort_key(comp, i))
+    unit_rows = sorted(unit_rows, key=lambda i: _sort_key(rows, i))
     taken: set[int] = set()
     groups = []
-    for i in rows:
-        due = comp.at[i, "due_days"]
+    for i in unit_rows:
+        due = rows[i].due_days
         if i in taken or math.isnan(due) or due >= end_days:
             continue
         members = [i]
         if settings.pair_within_h is not None:
-            rem = comp.at[i, "remaining_h"]
-            for j in rows:
-                other = comp.at[j, "remaining_h"]
+            rem = rows[i].remaining_h
+            for j in unit_rows:
+                other = rows[j].remaining_h
                 if j != i and j not in taken and not math.isnan(other):
                     if abs(other - rem) <= settings.pair_within_h:
                         members.append(j)
@@ -357,11 +357,9 @@ def _room(settings: PlanSettings, site: str) -> int:
     return min(settings.capacity_per_week, settings.site_capacity.get(site, math.inf))
 
 
-def _split_if_never_fits(
-    comp: pd.DataFrame, members: list[int], settings: PlanSettings
-) -> list[_Downtime]:
+def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings) -> list[_Downtime]:
     """Keep a group as one downtime unless no single week could ever hold it."""
-    group = _downtime(comp, members)
+    group = _downtime(rows, members)
     room = _room(settings, group.site)
     short = [m for m, n in group.models.items() if n > settings.exchange_stock.get(m, math.inf)]
     if len(members) == 1 or room == 0 or (len(members) <= room and not short):
@@ -373,15 +371,18 @@ def _split_if_never_fits(
     )
     note = f"Not combined with the other loop(s) of the unit: {why} for one joint downtime."
     end_days = 7 * settings.horizon_weeks
-    due = [i for i in members if comp.at[i, "due_days"] < end_days]  # NaN compares False
-    return [_downtime(comp, [i], note) for i in due]
+    due = [i for i in members if rows[i].due_days < end_days]  # NaN compares False
+    return [_downtime(rows, [i], note) for i in due]
 
 
-def _downtimes(comp: pd.DataFrame, settings: PlanSettings) -> list[_Downtime]:
+def _downtimes(rows: list, settings: PlanSettings) -> list[_Downtime]:
+    by_unit: dict[str, list[int]] = {}
+    for i, row in enumerate(rows):
+        by_unit.setdefault(row.unit, []).append(i)
     out: list[_Downtime] = []
-    for _, rows in comp.groupby("unit", sort=True).groups.items():
-        for members in _unit_downtimes(comp, list(rows), settings):
-            out.extend(_split_if_never_fits(comp, members, settings))
+    for unit_rows in by_unit.values():
+        for members in _unit_downtimes(rows, unit_rows, settings):
+            out.extend(_split_if_never_fits(rows, members, settings))
     return sorted(out, key=lambda d: d.key)
 
 
@@ -444,9 +445,8 @@ def _choose_week(shop: _Shop, d: _Downtime) -> tuple[int | None, str]:
     why = "; ".join(shop.blockers(d, d.due_week))
     for week in range(d.due_week + 1, h):
         if not shop.blockers(d, week):
-            return week, (
-                f"no room in weeks 0-{d.due_week} ({why}); earliest week with room is week {week}"
-            )
+            span = "week 0" if d.due_week == 0 else f"weeks 0-{d.due_week}"
+            return week, f"no room in {span} ({why}); earliest week with room is week {week}"
     reasons = sorted({b for w in range(h) for b in shop.blockers(d, w)})
     return None, f"no week of the {h}-week horizon has room ({'; '.join(reasons)})"
 
@@ -466,9 +466,9 @@ def _lateness(due: date | None, due_days: float, week: int, settings: PlanSettin
     return max(0, week - due_week), late_days
 
 
-def _member_reason(comp: pd.DataFrame, d: _Downtime, i: int, how: str, s: PlanSettings) -> str:
-    row, anchor = comp.loc[i], comp.loc[d.members[0]]
-    others = [comp.at[j, "position"] for j in d.members if j != i]
+def _member_reason(rows: list, d: _Downtime, i: int, how: str, s: PlanSettings) -> str:
+    row, anchor = rows[i], rows[d.members[0]]
+    others = [rows[j].position for j in d.members if j != i]
     due = "no due date" if row.due_date is None else f"due {row.due_date.isoformat()}"
     if i == d.members[0]:
         text = f"{row.position}: {due} (week {d.due_week}); {how}."
@@ -492,14 +492,14 @@ def _member_reason(comp: pd.DataFrame, d: _Downtime, i: int, how: str, s: PlanSe
 
 
 def _assignment_rows(
-    comp: pd.DataFrame, d: _Downtime, number: int, week: int, how: str, s: PlanSettings
+    rows: list, d: _Downtime, number: int, week: int, how: str, s: PlanSettings
 ) -> list[dict]:
-    rows = []
+    out = []
     for i in d.members:
-        row = comp.loc[i]
+        row = rows[i]
         late_weeks, late_days = _lateness(row.due_date, row.due_days, week, s)
         own_due_week = pd.NA if math.isnan(row.due_days) else max(0, int(row.due_days // 7))
-        rows.append(
+        out.append(
             {
                 "downtime": number,
                 "unit": row.unit,
@@ -511,28 +511,27 @@ def _assignment_rows(
                 "due_date": row.due_date,
                 "due_week": own_due_week,
                 "remaining_h": row.remaining_h,
-                "paired_with": ", ".join(comp.at[j, "position"] for j in d.members if j != i),
+                "paired_with": ", ".join(rows[j].position for j in d.members if j != i),
                 "late_weeks": late_weeks,
                 "late_days": late_days,
-                "reason": _member_reason(comp, d, i, how, s),
+                "reason": _member_reason(rows, d, i, how, s),
             }
         )
-    return rows
+    return out
 
 
-def _unplanned_rows(comp: pd.DataFrame, d: _Downtime, how: str, s: PlanSettings) -> list[dict]:
-    rows = []
+def _unplanned_rows(rows: list, d: _Downtime, how: str, s: PlanSettings) -> list[dict]:
+    out = []
     for i in d.members:
-        row = comp.loc[i]
-        rows.append(
-            {c: row[c] for c in ("unit", "site", "position", "component_model", "due_date")}
+        row = rows[i]
+        out.append(
+            {c: getattr(row, c) for c in (*_ID, "due_date", "remaining_h")}
             | {
-                "remaining_h": row.remaining_h,
-                "paired_with": ", ".join(comp.at[j, "position"] for j in d.members if j != i),
-                "reason": _member_reason(comp, d, i, how, s),
+                "paired_with": ", ".join(rows[j].position for j in d.members if j != i),
+                "reason": _member_reason(rows, d, i, how, s),
             }
         )
-    return rows
+    return out
 
 
 def _unscheduled(comp: pd.DataFrame, grouped: set[int]) -> pd.DataFrame:
@@ -647,17 +646,18 @@ def plan_rebuilds(
         pair_within_h=pair_within_h,
     )
     comp = _prepare(status, s.as_of)
-    downtimes = _downtimes(comp, s)
+    rows = list(comp.itertuples(index=False))  # row i is comp label i (fast access)
+    downtimes = _downtimes(rows, s)
     shop = _Shop(s, sorted(set(comp["site"]) | set(s.site_capacity)))
-    planned, unplanned = [], []
+    planned, unplanned, number = [], [], 0
     for d in downtimes:
         week, how = _choose_week(shop, d)
         if week is None:
-            unplanned.extend(_unplanned_rows(comp, d, how, s))
+            unplanned.extend(_unplanned_rows(rows, d, how, s))
             continue
         shop.book(d, week)
-        number = len({r["downtime"] for r in planned}) + 1
-        planned.extend(_assignment_rows(comp, d, number, week, how, s))
+        number += 1
+        planned.extend(_assignment_rows(rows, d, number, week, how, s))
     return _assemble(comp, s, shop, downtimes, planned, unplanned)
 
 
