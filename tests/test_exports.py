@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import io
+import zipfile
 from datetime import UTC, date, datetime, timedelta
 
 import icalendar
@@ -108,7 +109,11 @@ def test_plan_csv_reads_back_with_the_same_rows(plan):
 
 def test_xlsx_formula_like_text_stays_text():
     df = pd.DataFrame({"unit": NASTY, "hours": [1.5, float("nan"), 3, 4, 5, 6], "day": [AS_OF] * 6})
-    wb = openpyxl.load_workbook(io.BytesIO(frame_to_xlsx_bytes(df, "ranking")))
+    raw = frame_to_xlsx_bytes(df, "ranking")
+    with zipfile.ZipFile(io.BytesIO(raw)) as zf:
+        sheet_xml = zf.read("xl/worksheets/sheet1.xml").decode("utf-8")
+    assert "<f>" not in sheet_xml and "<f " not in sheet_xml  # no formula element anywhere
+    wb = openpyxl.load_workbook(io.BytesIO(raw))
     ws = wb["ranking"]
     rows = list(ws.iter_rows(values_only=True))
     assert rows[0] == ("unit", "hours", "day")
@@ -234,3 +239,14 @@ def test_bad_export_arguments(plan):
     with pytest.raises(ValueError, match="DataFrame"):
         frame_to_csv_bytes([1, 2])
     assert plan_export_bytes(plan, "csv") == plan_to_csv_bytes(plan)
+
+
+def test_empty_plan_exports_have_headers_only():
+    status = pd.DataFrame(columns=list(STATUS_COLUMNS))
+    empty = plan_rebuilds(status, AS_OF, horizon_weeks=2, capacity_per_week=1)
+    back = pd.read_csv(io.BytesIO(plan_to_csv_bytes(empty)))
+    assert back.empty and list(back.columns) == list(empty.assignments.columns)
+    wb = openpyxl.load_workbook(io.BytesIO(plan_to_xlsx_bytes(empty)))
+    assert [r for r in wb["rebuilds"].iter_rows(values_only=True)] == [
+        tuple(empty.assignments.columns)
+    ]

@@ -356,6 +356,17 @@ def _independent_stock_check(plan, stock, turnaround):
             assert weeks.count(t) <= on_shelf, (model, t)
 
 
+def _check_pairing(plan, pair):
+    """Two planned loops of a unit share a downtime exactly when the rule says so."""
+    a = plan.assignments
+    for _unit, g in a.groupby("unit"):
+        if len(g) != 2:
+            continue
+        within = pair is not None and abs(g.remaining_h.iloc[0] - g.remaining_h.iloc[1]) <= pair
+        split = g.reason.str.contains("Not combined").any()
+        assert (g.downtime.nunique() == 1) == (within and not split)
+
+
 @st.composite
 def fleets(draw):
     n_units = draw(st.integers(0, 7))
@@ -417,6 +428,7 @@ def test_plan_never_exceeds_capacity_or_stock(f, horizon, cap, site_cap, stock, 
         if row.due_date is not None:
             assert row.late_days == max(0, (row.week_start - row.due_date).days)
     assert not a.reason.str.len().eq(0).any()
+    _check_pairing(plan, pair)
     fleet_rows = plan.capacity[plan.capacity.site == ALL_SITES].set_index("week").used
     assert fleet_rows.to_dict() == {w: Counter(a.week).get(w, 0) for w in range(horizon)}
 
@@ -474,3 +486,22 @@ def test_split_pair_leaves_a_partner_due_after_the_horizon_unplanned():
     plan = plan_rebuilds(f, AS_OF, horizon_weeks=1, capacity_per_week=1)
     assert weeks_of(plan) == {("P-1", "left"): 0}
     assert plan.beyond_horizon == 1 and plan.unplanned.empty
+
+
+def test_planner_is_pure():
+    # The planner must not reach for the database, the UI, the CLI or files (STYLE.md).
+    import ast
+    from pathlib import Path
+
+    import monitor.planning as planning
+
+    tree = ast.parse(Path(planning.__file__).read_text(encoding="utf-8"))
+    imported = {
+        (n.module if isinstance(n, ast.ImportFrom) else a.name).split(".")[0]
+        for n in ast.walk(tree)
+        if isinstance(n, (ast.Import, ast.ImportFrom))
+        for a in (n.names if isinstance(n, ast.Import) else [n])
+    }
+    assert not imported & {"sqlalchemy", "streamlit", "click", "os", "pathlib", "io", "shutil"}
+    calls = {n.func.id for n in ast.walk(tree) if isinstance(n, ast.Call) and hasattr(n.func, "id")}
+    assert "open" not in calls
