@@ -334,6 +334,7 @@ def service_add(tag: str, position: str | None, kind: str, at: str, hour_meter: 
     A rebuild or replacement starts a new life: uploads up to it and case-drain readings
     before it no longer count for that drive's status.
 
+    \b
     Example: drivespan service add QX-104 --position left --kind rebuild --at 2026-11-20T08:00:00Z --hour-meter 6120
     """  # noqa: E501
     from datetime import datetime

@@ -402,6 +402,13 @@ def _limiting(bearing: pd.Series, wear_h: pd.Series) -> tuple[list[float], list]
     return [p[0] for p in pairs], [p[1] for p in pairs]
 
 
+def _objects(values: list) -> pd.Series:
+    """A column that keeps None, dates and lists as they are (no dtype inference)."""
+    out = np.empty(len(values), dtype=object)
+    out[:] = values
+    return pd.Series(out, dtype=object)
+
+
 def fleet_status(
     inputs: pd.DataFrame, readings: pd.DataFrame, as_of: date, params: StatusParams
 ) -> pd.DataFrame:
@@ -430,16 +437,19 @@ def fleet_status(
     df = pd.concat([bearing_frame(inputs, params), wear_frame(inputs, readings, params)], axis=1)
     t = as_of_instant(as_of)
     last = pd.to_datetime(inputs["now_period_end"], utc=True)
-    df["last_upload_at"] = [None if pd.isna(v) else v.to_pydatetime() for v in last]
+    df["last_upload_at"] = _objects([None if pd.isna(v) else v.to_pydatetime() for v in last])
     df["data_age_days"] = (pd.Timestamp(t) - last).dt.total_seconds().to_numpy() / 86400.0
     df["has_cutoff"] = inputs["m_cutoff_bar"].notna().to_numpy()
-    df["flags"] = _flags(df, params)
-    df["remaining_h"], df["limiting"] = _limiting(df["remaining_bearing_h"], df["remaining_wear_h"])
+    df["flags"] = _objects(_flags(df, params))
+    rem, lim = _limiting(df["remaining_bearing_h"], df["remaining_wear_h"])
+    df["remaining_h"], df["limiting"] = np.asarray(rem, float), _objects(lim)
     df["status"] = lifecycle.status_band(df["remaining_h"].to_numpy(float), **params.status_limits)
-    df["due_date"] = [
-        lifecycle.due_date(as_of, r, u)
-        for r, u in zip(df["remaining_h"], df["utilisation_h_per_day"], strict=True)
-    ]
+    df["due_date"] = _objects(
+        [
+            lifecycle.due_date(as_of, r, u)
+            for r, u in zip(df["remaining_h"], df["utilisation_h_per_day"], strict=True)
+        ]
+    )
     df["hour_meter"] = inputs["now_hour_meter_end"].to_numpy(float)
     for col in ("unit", "site", "position", "machine_type", "component_id"):
         df[col] = inputs[col].to_numpy()
