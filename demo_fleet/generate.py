@@ -242,8 +242,7 @@ def generate(
     )
 
 
-def main(argv: list[str] | None = None) -> int:
-    """Command-line entry: generate the demo fleet and print a short summary."""
+def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="python -m demo_fleet.generate",
         description="Write the invented drivespan demo fleet (registry and exports).",
@@ -264,7 +263,12 @@ def main(argv: list[str] | None = None) -> int:
         default=1.0,
         help="share of the fleet, 0-1; story units always kept (default 1)",
     )
-    args = parser.parse_args(argv)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Command-line entry: generate the demo fleet and print a short summary."""
+    args = _parser().parse_args(argv)
     began = time.perf_counter()
     try:
         fleet = generate(
@@ -279,13 +283,14 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     total = sum(fleet.sizes_bytes.values())
     print(
-        f"{fleet.units} units, {fleet.histograms} histograms, {len(fleet.export_paths)} exports, "
-        f"{total / 1e6:.1f} MB in {time.perf_counter() - began:.1f} s -> {args.out_dir}"
+        f"{fleet.units} units, {fleet.histograms} histograms, {len(fleet.export_paths)} "
+        f"exports, {total / 1e6:.1f} MB in {time.perf_counter() - began:.1f} s -> {args.out_dir}"
     )
     print(f"data {fleet.start_date} .. {fleet.end_date}; as-of {fleet.as_of}")
     for role, tag in fleet.stories.items():
         print(f"  {role}: {tag}")
     print(f"  broken export (must be rejected): {fleet.broken_path}")
+    print("  the numbers are estimates from an invented fleet, not advice on real machines")
     return 0
 
 

@@ -279,8 +279,8 @@ def simulate_unit(
 
 
 def _calibrate_contaminated(hist: UnitHistory) -> None:
-    """Set the wear life so the normalised drain ends at 92 % / 88 % of the limit."""
-    for pos, end_share in zip(hist.positions, (0.92, 0.88), strict=False):
+    """Set the wear life so the normalised drain ends at 96 % / 92 % of the limit."""
+    for pos, end_share in zip(hist.positions, (0.96, 0.92), strict=False):
         pos.offsets = [1.0] * len(pos.offsets)
         start = max((e.day for e in hist.events if e.position == pos.position), default=0)
         target_w = (end_share * pos.model["case_drain"]["limit_factor"] - 1.0) ** (

@@ -116,7 +116,7 @@ class MachineType:
     name: str
     positions: tuple[tuple[str, str, str, str], ...]
     target_life_h: tuple[float, float] = (8000.0, 15000.0)
-    wear_life_h: tuple[float, float] = (14000.0, 28000.0)
+    wear_life_h: tuple[float, float] = (6000.0, 20000.0)
 
 
 def _two_loop(name: str, model: str, duty: str, **kw) -> MachineType:
@@ -136,13 +136,13 @@ MACHINE_TYPES: dict[str, MachineType] = {
             "log deck conveyor",
             (("pump", "DS-P90", "conveyor", "electric"), ("motor", "DS-M110", "conveyor", "motor")),
             target_life_h=(11000.0, 18000.0),
-            wear_life_h=(20000.0, 34000.0),
+            wear_life_h=(10000.0, 30000.0),
         ),
         MachineType(
             "debarker infeed conveyor",
             (("pump", "DS-P90", "conveyor", "electric"), ("motor", "DS-M110", "conveyor", "motor")),
             target_life_h=(11000.0, 18000.0),
-            wear_life_h=(20000.0, 34000.0),
+            wear_life_h=(10000.0, 30000.0),
         ),
         MachineType(
             "green chain drive",
@@ -151,13 +151,13 @@ MACHINE_TYPES: dict[str, MachineType] = {
                 ("motor", "DS-M110", "chain", "motor_matrix"),
             ),
             target_life_h=(11000.0, 18000.0),
-            wear_life_h=(20000.0, 34000.0),
+            wear_life_h=(10000.0, 30000.0),
         ),
         MachineType(
             "trimmer chain drive",
             (("pump", "DS-P46", "chain", "electric"),),
             target_life_h=(11000.0, 18000.0),
-            wear_life_h=(20000.0, 34000.0),
+            wear_life_h=(10000.0, 30000.0),
         ),
     )
 }

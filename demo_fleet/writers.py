@@ -124,48 +124,55 @@ def write_readings(rows: list[tuple], path: Path) -> None:
     frame.to_csv(path, index=False, lineterminator="\n")
 
 
+def _service_entries(hist: UnitHistory, days: np.ndarray, meter0_tenths: int) -> list[dict]:
+    """Service history of one unit: start-of-monitoring overhauls, then rebuilds."""
+    service = []
+    if meter0_tenths > 0:  # drives overhauled when the monitoring started
+        for i, pos in enumerate(hist.positions):
+            kind = "rebuild" if (hist.plan.index + i) % 3 else "replacement"
+            service.append(
+                {
+                    "position": pos.position,
+                    "kind": kind,
+                    "at": stamp(days[0] - 1, 12),
+                    "hour_meter": meter0_tenths / 10,
+                }
+            )
+    starts = hist.meter_start_tenths()
+    for ev in sorted(hist.events, key=lambda e: (e.day, e.position)):
+        service.append(
+            {
+                "position": ev.position,
+                "kind": ev.kind,
+                "at": stamp(days[ev.day], ev.hour),
+                "hour_meter": float(starts[ev.day]) / 10.0,
+            }
+        )
+    return service
+
+
 def registry_document(
     histories: list[UnitHistory], days: np.ndarray, meter0: dict[str, int]
 ) -> dict:
     """The fleet registry as a plain dict in the documented YAML shape."""
-    sites = []
+    sites: list[str] = []
     units = []
     for hist in histories:
         plan = hist.plan
         if plan.site.name not in sites:
             sites.append(plan.site.name)
-        service = []
-        if meter0[plan.tag] > 0:  # drives overhauled when the monitoring started
-            for i, pos in enumerate(hist.positions):
-                service.append(
-                    {
-                        "position": pos.position,
-                        "kind": "rebuild" if (plan.index + i) % 3 else "replacement",
-                        "at": stamp(days[0] - 1, 12),
-                        "hour_meter": meter0[plan.tag] / 10,
-                    }
-                )
-        starts = hist.meter_start_tenths()
-        for ev in sorted(hist.events, key=lambda e: (e.day, e.position)):
-            service.append(
-                {
-                    "position": ev.position,
-                    "kind": ev.kind,
-                    "at": stamp(days[ev.day], ev.hour),
-                    "hour_meter": float(starts[ev.day]) / 10.0,
-                }
-            )
+        components = [
+            {"position": p.position, "model": p.model["name"], "serial": p.serial}
+            for p in hist.positions
+        ]
         units.append(
             {
                 "tag": plan.tag,
                 "site": plan.site.name,
                 "machine_type": plan.machine.name,
                 "oil": OIL["name"],
-                "components": [
-                    {"position": p.position, "model": p.model["name"], "serial": p.serial}
-                    for p in hist.positions
-                ],
-                "service": service,
+                "components": components,
+                "service": _service_entries(hist, days, meter0[plan.tag]),
             }
         )
     return {
