@@ -123,6 +123,9 @@ def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Fi
     frame = fleet.assign(bucket=buckets).dropna(subset=["bucket"])
     if frame.empty:
         _empty(fig, f"Nothing falls due in the {weeks} weeks from {as_of.isoformat()}")
+        fig.add_bar(x=labels, y=[0] * len(labels), showlegend=False, hoverinfo="skip",
+                    name="(none)")  # fmt: skip
+        fig.update_yaxes(range=[0, 1])
     bands = sorted(frame["status"].map(status_key).unique(), key=status_rank)
     for band in bands:
         part = frame[frame["status"].map(status_key) == band]

@@ -42,6 +42,7 @@ def command(
         "--browser.gatherUsageStats", "false",
         "--client.toolbarMode", "minimal",
         "--theme.base", "light",
+        "--theme.primaryColor", "#2F6690",
     ]  # fmt: skip
 
 

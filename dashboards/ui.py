@@ -140,8 +140,14 @@ def table_frame(fleet: pd.DataFrame) -> pd.DataFrame:
     df["status"] = df["status"].map(status_label)
     df["limiting"] = df["limiting"].fillna("—")
     df["flags"] = df["flags"].map(_flag_text)
-    df["due_date"] = pd.to_datetime(df["due_date"])
+    df["due_date"] = [_date_text(d) for d in df["due_date"]]
     return df[list(TABLE_COLUMNS)]
+
+
+def _date_text(value: object) -> str:
+    if value is None or pd.isna(value):
+        return ""
+    return pd.Timestamp(value).date().isoformat()
 
 
 def _flag_text(flags: object) -> str:
@@ -165,7 +171,9 @@ def column_config() -> dict:
     config: dict = dict(TABLE_COLUMNS)
     config |= {k: cc.NumberColumn(TABLE_COLUMNS[k], format=f) for k, f in _NUMBER_FORMATS.items()}
     config["unit"] = cc.TextColumn(TABLE_COLUMNS["unit"], pinned=True)
-    config["due_date"] = cc.DateColumn(TABLE_COLUMNS["due_date"], format="YYYY-MM-DD")
+    config["due_date"] = cc.TextColumn(
+        TABLE_COLUMNS["due_date"], help="Empty: no recent operating hours, so no date"
+    )
     config["consumed_fraction"] = cc.ProgressColumn(
         TABLE_COLUMNS["consumed_fraction"], min_value=0.0, max_value=1.0, format="percent",
         help="Share of the rated bearing life (L10 at the planning reliability) used since "
@@ -293,3 +301,14 @@ def problems_frame(problems: tuple) -> pd.DataFrame:
             "Problem": [p.message for p in problems],
         }
     )
+
+
+def summary_markdown(lines: list[str]) -> str:
+    """The unit summary as a bullet list; indented sentences become sub-points."""
+    if not lines:
+        return "No data yet."
+    out = []
+    for line in lines:
+        indent = "    " if line.startswith("  ") else ""
+        out.append(f"{indent}- {line.strip()}")
+    return "\n".join(out)

@@ -17,6 +17,7 @@ from scipy import stats
 from dashboards import charts
 
 AS_OF = date(2026, 3, 2)
+ACT, DUE, PLAN, HEALTHY, NONE = charts.STATUS_ORDER
 
 
 def trace(fig: go.Figure, name: str):
@@ -32,7 +33,7 @@ def fleet_frame() -> pd.DataFrame:
             "position": ["left", "left", "drive", "drive", "left"],
             "remaining_h": [0.0, 40.0, 300.0, 2500.0, np.nan],
             "due_date": [None, date(2026, 3, 5), date(2026, 3, 20), date(2027, 1, 1), None],
-            "status": ["overdue", "due", "plan", "ok", "no estimate"],
+            "status": list(charts.STATUS_ORDER),
         }
     )
 
@@ -45,20 +46,21 @@ def test_week_buckets_put_due_now_first_and_drop_far_and_undated():
 
 def test_due_weeks_figure_counts_each_component_once_in_its_week():
     fig = charts.due_weeks_figure(fleet_frame(), AS_OF, weeks=4)
-    assert [t.name for t in fig.data] == ["overdue", "due", "plan"]  # most urgent first
-    assert list(trace(fig, "overdue").y) == [1, 0, 0, 0, 0]
-    assert list(trace(fig, "due").y) == [0, 1, 0, 0, 0]
-    assert list(trace(fig, "plan").y) == [0, 0, 0, 1, 0]
-    assert trace(fig, "plan").x[3] == "16 Mar"  # week 2 starts 14 days after 2 Mar
+    assert [t.name for t in fig.data] == [ACT, DUE, PLAN]  # most urgent first
+    assert list(trace(fig, ACT).y) == [1, 0, 0, 0, 0]
+    assert list(trace(fig, DUE).y) == [0, 1, 0, 0, 0]
+    assert list(trace(fig, PLAN).y) == [0, 0, 0, 1, 0]
+    assert trace(fig, PLAN).x[3] == "16 Mar"  # week 2 starts 14 days after 2 Mar
     assert "count" in fig.layout.yaxis.title.text
     assert "date" in fig.layout.xaxis.title.text
-    assert "B-1 drive" in trace(fig, "plan").customdata[3]
+    assert "B-1 drive" in trace(fig, PLAN).customdata[3]
 
 
 def test_due_weeks_figure_says_so_when_nothing_is_due():
     f = fleet_frame().iloc[[3, 4]]
     fig = charts.due_weeks_figure(f, AS_OF, weeks=4)
-    assert not fig.data
+    assert [t.name for t in fig.data] == ["(none)"]  # keeps the week axis
+    assert list(fig.data[0].y) == [0] * 5
     assert "Nothing falls due" in fig.layout.annotations[0].text
 
 
@@ -67,13 +69,13 @@ def test_status_colours_differ_and_unknown_bands_get_grey():
     assert len(colours) == len(charts.STATUS_ORDER)
     assert charts.status_colour("something else") == "#9DA5AE"
     assert charts.status_key(None) == "no estimate"
-    assert charts.status_key("Overdue") == "overdue"
+    assert charts.status_key(" Due Soon") == "due soon"
 
 
 def test_status_count_frame_orders_by_urgency():
     f = pd.concat([fleet_frame(), fleet_frame().iloc[[2]]])
     counts = charts.status_count_frame(f)
-    assert list(counts["status"]) == ["overdue", "due", "plan", "ok", "no estimate"]
+    assert list(counts["status"]) == list(charts.STATUS_ORDER)
     assert list(counts["count"]) == [1, 1, 2, 1, 1]
 
 

@@ -21,7 +21,10 @@ if fleet.empty:
     st.stop()
 
 st.html(ui.status_chips(fleet))
-st.plotly_chart(charts.due_weeks_figure(fleet, ctx.as_of, weeks=12), key="due_weeks")
+weeks = st.segmented_control(
+    "Look ahead [weeks]", [4, 12, 26, 52], default=12, key="f_weeks", required=True
+)
+st.plotly_chart(charts.due_weeks_figure(fleet, ctx.as_of, weeks=weeks or 12), key="due_weeks")
 
 st.subheader("Ranking")
 f1, f2, f3, f4, f5 = st.columns([1.2, 1, 1, 1, 1.2])

@@ -36,7 +36,7 @@ st.caption(f"{info.get('site', '')} · {info.get('machine_type', '')} · oil {in
 
 with st.container(border=True):
     st.markdown("**Why this unit stands where it does**")
-    st.markdown("\n".join(f"- {line}" for line in report.summary) or "No data yet.")
+    st.markdown(ui.summary_markdown(report.summary))
 st.dataframe(ui.table_frame(report.status).drop(columns=["unit", "site", "machine_type"]),
              column_config=ui.column_config(), hide_index=True, key="u_status")  # fmt: skip
 
