@@ -53,14 +53,14 @@ def status_rank(status: object) -> int:
     return STATUS_ORDER.index(key) if key in STATUS_ORDER else len(STATUS_ORDER)
 
 
-def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 340) -> go.Figure:
+def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 380) -> go.Figure:
     fig.update_layout(
         title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15}},
         template="plotly_white",
         font={"family": FONT, "color": INK, "size": 13},
         height=height,
-        margin={"l": 64, "r": 24, "t": 56, "b": 56},
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "xanchor": "right", "x": 1.0},
+        margin={"l": 64, "r": 24, "t": 48, "b": 120},
+        legend={"orientation": "h", "yanchor": "top", "y": -0.3, "xanchor": "left", "x": 0.0},
         hoverlabel={"font": {"family": FONT}},
     )
     fig.update_xaxes(title_text=x_title, gridcolor=GRID, zeroline=False)
@@ -367,10 +367,13 @@ def oil_figure(samples: pd.DataFrame) -> go.Figure:
 # --- plan -------------------------------------------------------------------------------
 
 
-def plan_timeline_figure(assignments: pd.DataFrame) -> go.Figure:
+def plan_timeline_figure(
+    assignments: pd.DataFrame, as_of: date | None = None, horizon_weeks: int | None = None
+) -> go.Figure:
     """Planned rebuilds per week and site: number in each cell, late ones marked.
 
-    ``assignments``: week_start, site, unit, position, late_days (planning output).
+    ``assignments``: week_start, site, unit, position, late_days (planning output);
+    ``as_of`` and ``horizon_weeks`` fix the date axis to the planning horizon.
     """
     fig = go.Figure()
     if assignments.empty:
@@ -402,7 +405,25 @@ def plan_timeline_figure(assignments: pd.DataFrame) -> go.Figure:
             + "<br>%{customdata}<extra></extra>",
         )  # fmt: skip
     fig.update_yaxes(type="category")
+    if as_of is not None and horizon_weeks is not None:
+        _week_axis(fig, as_of, horizon_weeks)
     return _style(fig, "Rebuild plan by week and site", "Week starting [date]", "Site", height=360)
+
+
+def _week_axis(fig: go.Figure, as_of: date, horizon_weeks: int) -> None:
+    """Date axis over the planning horizon, one tick per week start."""
+    start = pd.Timestamp(as_of)
+    end = start + pd.Timedelta(weeks=horizon_weeks)
+    fig.update_xaxes(
+        type="date", range=[start - pd.Timedelta(days=4), end],
+        tick0=start, dtick=7 * 86_400_000 * max(1, horizon_weeks // 12), tickformat="%d %b",
+    )  # fmt: skip
+
+
+def _used_text(used: int, full: bool) -> str:
+    if full:
+        return f"{used} (full)"
+    return str(used) if used else ""
 
 
 def capacity_figure(capacity: pd.DataFrame, site: str) -> go.Figure:
@@ -419,7 +440,7 @@ def capacity_figure(capacity: pd.DataFrame, site: str) -> go.Figure:
     fig = go.Figure()
     fig.add_bar(
         x=weeks, y=rows["used"], name="slots used", marker_color=colours,
-        text=[f"{u} (full)" if f else str(u) for u, f in zip(rows["used"], full, strict=True)],
+        text=[_used_text(u, f) for u, f in zip(rows["used"], full, strict=True)],
         textposition="outside", hovertemplate="week of %{x|%d %b}: %{y} used<extra></extra>",
     )  # fmt: skip
     if cap.notna().any():
@@ -427,5 +448,8 @@ def capacity_figure(capacity: pd.DataFrame, site: str) -> go.Figure:
             x=weeks, y=cap, mode="lines", name="capacity", line={"color": INK, "dash": "dash",
             "shape": "hvh"},
         )  # fmt: skip
+    if len(rows):
+        weeks_n = len(rows)
+        _week_axis(fig, pd.Timestamp(rows["week_start"].iloc[0]).date(), weeks_n)
     return _style(fig, f"Shop capacity use — {site}", "Week starting [date]",
-                  "Rebuilds per week [count]", height=300)  # fmt: skip
+                  "Rebuilds per week [count]", height=340)  # fmt: skip

@@ -5,8 +5,24 @@ from __future__ import annotations
 import math
 
 import pandas as pd
+import streamlit as st
 
 from dashboards.data import PlanOptions
+
+PLAN_LABELS = {
+    "on_time": "On time?",
+    "week_start": "Week starting",
+    "site": "Site",
+    "unit": "Unit",
+    "position": "Position",
+    "component_model": "Model",
+    "due_date": "Due date",
+    "remaining_h": st.column_config.NumberColumn("Remaining [h]", format="%,.0f"),
+    "paired_with": "Done with",
+    "late_days": "Late [days]",
+    "reason": "Why this week",
+}
+"""Headings of the plan tables."""
 
 SITE_COLUMNS = {"site": "Site", "slots": "Slots per week (blank: fleet limit only)"}
 STOCK_COLUMNS = {
@@ -93,4 +109,4 @@ def late_style(assignments: pd.DataFrame) -> pd.io.formats.style.Styler:
         css = "background-color: #F6E3E7; font-weight: 600" if row["on_time"] == "LATE" else ""
         return [css] * len(row)
 
-    return shown.style.apply(shade, axis=1).format({"remaining_h": "{:,.0f}"}, na_rep="—")
+    return shown.style.apply(shade, axis=1).format({"remaining_h": "{:,.0f}"}, na_rep="")

@@ -312,3 +312,36 @@ def summary_markdown(lines: list[str]) -> str:
         indent = "    " if line.startswith("  ") else ""
         out.append(f"{indent}- {line.strip()}")
     return "\n".join(out)
+
+
+_LABELS = {
+    "taken_at": "Taken at (UTC)",
+    "iso4406": "ISO 4406 code",
+    "r4": "≥ 4 µm(c)",
+    "r6": "≥ 6 µm(c)",
+    "r14": "≥ 14 µm(c)",
+    "at": "When (UTC)",
+    "position": "Position",
+    "kind": "Event",
+    "hour_meter": "Hour meter [h]",
+    "new_hour_meter": "New hour meter [h]",
+    "note": "Note",
+    "period_start": "From (UTC)",
+    "period_end": "To (UTC)",
+    "hour_meter_start": "Hour meter from [h]",
+    "hour_meter_end": "Hour meter to [h]",
+    "file": "File",
+}
+
+
+def labels(frame: pd.DataFrame) -> dict:
+    """Readable headings (with units) for the unit page's tables; times to the minute."""
+    cc = st.column_config
+    out: dict = {}
+    for col in frame.columns:
+        label = _LABELS.get(col, col)
+        if pd.api.types.is_datetime64_any_dtype(frame[col]):
+            out[col] = cc.DatetimeColumn(label, format="YYYY-MM-DD HH:mm")
+        else:
+            out[col] = label
+    return out

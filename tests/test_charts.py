@@ -183,21 +183,24 @@ def test_plan_timeline_figure_counts_cells_and_marks_late():
          "site": ["North", "North", "South"], "unit": ["A-1", "A-2", "B-1"],
          "position": ["left", "left", "drive"], "late_days": [0, 0, 4]}
     )  # fmt: skip
-    fig = charts.plan_timeline_figure(a)
+    fig = charts.plan_timeline_figure(a, date(2026, 3, 2), 4)
     on_time, late = trace(fig, "on time"), trace(fig, "late")
     assert list(on_time.text) == [2] and list(on_time.y) == ["North"]
     assert list(late.text) == [1] and list(late.y) == ["South"]
     assert late.marker.symbol == "diamond"
     assert "[date]" in fig.layout.xaxis.title.text
+    # the axis spans the 4-week horizon even when only two weeks hold rebuilds
+    assert pd.Timestamp(fig.layout.xaxis.range[1]) == pd.Timestamp("2026-03-30")
 
 
 def test_capacity_figure_flags_full_weeks():
     cap = pd.DataFrame(
-        {"week_start": [date(2026, 3, 2), date(2026, 3, 9)], "site": ["(all sites)"] * 2,
-         "used": [2, 1], "capacity": pd.array([2, 2], dtype="Int64")}
+        {"week_start": [date(2026, 3, 2), date(2026, 3, 9), date(2026, 3, 16)],
+         "site": ["(all sites)"] * 3, "used": [2, 1, 0],
+         "capacity": pd.array([2, 2, 2], dtype="Int64")}
     )  # fmt: skip
     fig = charts.capacity_figure(cap, "(all sites)")
     used = trace(fig, "slots used")
-    assert list(used.text) == ["2 (full)", "1"]
-    assert list(trace(fig, "capacity").y) == [2.0, 2.0]
+    assert list(used.text) == ["2 (full)", "1", ""]
+    assert list(trace(fig, "capacity").y) == [2.0, 2.0, 2.0]
     assert fig.layout.yaxis.title.text == "Rebuilds per week [count]"

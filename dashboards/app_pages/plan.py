@@ -56,20 +56,25 @@ m2.metric("Late", len(plan.late), help="Planned after their due date")
 m3.metric("No room in horizon", len(plan.unplanned))
 m4.metric("Largest lateness [days]", plan.max_late_days)
 
-st.plotly_chart(charts.plan_timeline_figure(a), key="plan_timeline")
+st.plotly_chart(
+    charts.plan_timeline_figure(a, ctx.as_of, plan.settings.horizon_weeks), key="plan_timeline"
+)
 site_rows = [planning.ALL_SITES, *ui.options(fleet, "site")]
 which = st.selectbox("Capacity use of", site_rows, key="plan_cap_site")
 st.plotly_chart(charts.capacity_figure(plan.capacity, which), key="plan_capacity")
 
 st.subheader("Planned rebuilds")
 st.caption("Late rebuilds (after their due date) are shaded and marked LATE.")
-st.dataframe(plan_view.late_style(a), hide_index=True, key="plan_table")
+st.dataframe(plan_view.late_style(a), hide_index=True, key="plan_table",
+             column_config=plan_view.PLAN_LABELS)  # fmt: skip
 if len(plan.unplanned):
     st.subheader("No room within the horizon")
-    st.dataframe(plan.unplanned, hide_index=True, key="plan_unplanned")
+    st.dataframe(plan.unplanned, hide_index=True, key="plan_unplanned",
+                 column_config=plan_view.PLAN_LABELS)  # fmt: skip
 if len(plan.unscheduled):
     st.subheader("Cannot be placed by date")
-    st.dataframe(plan.unscheduled, hide_index=True, key="plan_unscheduled")
+    st.dataframe(plan.unscheduled, hide_index=True, key="plan_unscheduled",
+                 column_config=plan_view.PLAN_LABELS)  # fmt: skip
 
 d1, d2, d3 = st.columns(3)
 stem = f"drivespan-plan-{ctx.as_of.isoformat()}"

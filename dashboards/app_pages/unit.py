@@ -15,6 +15,7 @@ if not tags:
     st.info("The store holds no units yet. Import a fleet registry on the Upload page.")
     st.stop()
 
+head = st.container()
 wanted = st.query_params.get("unit")
 if wanted and wanted not in tags:
     st.error(f"There is no unit with the tag {wanted!r}. Pick one from the list below.")
@@ -30,9 +31,9 @@ except service.DomainError as err:
     st.stop()
 
 info = report.unit
-st.title(f"Unit {info['tag']}")
-st.caption(f"{info.get('site', '')} · {info.get('machine_type', '')} · oil {info.get('oil', '')}"
-           f" · as of {ctx.as_of.isoformat()}")  # fmt: skip
+head.title(f"Unit {info['tag']}")
+head.caption(f"{info.get('site', '')} · {info.get('machine_type', '')} · oil {info.get('oil', '')}"
+             f" · as of {ctx.as_of.isoformat()}")  # fmt: skip
 
 with st.container(border=True):
     st.markdown("**Why this unit stands where it does**")
@@ -61,9 +62,15 @@ for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict
         right.plotly_chart(charts.relief_figure(detail.relief_monthly), key=f"relief_{pos}")
         left.plotly_chart(charts.oil_figure(detail.oil_samples), key=f"oil_{pos}")
         right.markdown("**Oil samples**")
-        right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}")
+        right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}",
+                        column_config=ui.labels(detail.oil_samples))  # fmt: skip
 
 st.subheader("Service history")
-st.dataframe(report.service_history, hide_index=True, key="u_history")
+if report.service_history.empty:
+    st.caption("No rebuilds, replacements or hour-meter changes recorded.")
+else:
+    st.dataframe(report.service_history, hide_index=True, key="u_history",
+                 column_config=ui.labels(report.service_history))  # fmt: skip
 st.subheader("Recent uploads")
-st.dataframe(report.uploads, hide_index=True, key="u_uploads")
+st.dataframe(report.uploads, hide_index=True, key="u_uploads",
+             column_config=ui.labels(report.uploads))  # fmt: skip
