@@ -138,7 +138,7 @@ def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Fi
             textposition="inside",
             hovertemplate="%{x}: %{y} component(s) " + band + "<br>%{customdata}<extra></extra>",
         )  # fmt: skip
-    fig.update_layout(barmode="stack", bargap=0.25)
+    fig.update_layout(barmode="stack", bargap=0.25, legend_traceorder="normal")
     fig.update_xaxes(categoryorder="array", categoryarray=labels)
     return _style(
         fig,

@@ -3,13 +3,16 @@
 Three units of one invented pump model (rated L10 1 000 h at 380 bar differential,
 2 500 rpm, charge 20 bar, exponent 10/3), forty days of daily histograms:
 
-- QA-HOT, both loops 22 h/day in the 400-450 bar band: midpoint 425 bar, 405 bar
+- AA-HOT, both loops 22 h/day in the 400-450 bar band: midpoint 425 bar, 405 bar
   differential, band life 1000 * (380/405)^(10/3) = 809 h, so 40 days * 22 h = 880 h
   consume 880 / 809 = 1.09 of the life: no hours left, the most urgent unit.
-- QB-CONV, 20 h/day at 350-400 bar: 355 bar differential, band life
+- AB-CONV, 20 h/day at 350-400 bar: 355 bar differential, band life
   1000 * (380/355)^(10/3) = 1 254 h; 800 h used 0.64, about 450 h left.
-- QA-MILD, 8 h/day at 100-200 bar: 130 bar differential, band life 35 700 h;
+- AA-MILD, 8 h/day at 100-200 bar: 130 bar differential, band life 35 700 h;
   practically nothing used. Its last upload ends three days before the as-of date.
+
+The tags start with "AA"/"AB" so that, mixed with the demo fleet, AA-HOT also wins
+the contract's tie-break (equal remaining hours and due date: unit tag order).
 
 (Band lives hand-computed from the design brief's life model v1.)
 """
@@ -20,8 +23,7 @@ from datetime import date, datetime, timedelta
 from pathlib import Path
 
 AS_OF = date(2026, 3, 10)
-MOST_URGENT = "QA-HOT"
-START = date(2026, 1, 29)
+MOST_URGENT = "AA-HOT"
 DAYS = 40
 
 REGISTRY = """\
@@ -43,21 +45,21 @@ sites:
   - name: North Pit
   - name: South Mill
 units:
-  - tag: QA-HOT
+  - tag: AA-HOT
     site: North Pit
     machine_type: track loader
     oil: test-oil-46
     components:
       - {position: left, model: TP-50}
       - {position: right, model: TP-50}
-  - tag: QA-MILD
+  - tag: AA-MILD
     site: North Pit
     machine_type: track loader
     oil: test-oil-46
     components:
       - {position: left, model: TP-50}
       - {position: right, model: TP-50}
-  - tag: QB-CONV
+  - tag: AB-CONV
     site: South Mill
     machine_type: chain conveyor
     oil: test-oil-46
@@ -69,10 +71,12 @@ HEADER = (
     "unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
     "pressure_low_bar,pressure_high_bar,hours,mean_speed_rpm\n"
 )
+METER0 = {"AA-HOT": 1000.0, "AA-MILD": 500.0, "AB-CONV": 8000.0}
+MILD_DAYS = DAYS - 3  # AA-MILD's data stops three days before the as-of date
 DUTY = {  # unit -> (positions, hours per day, band low, band high)
-    "QA-HOT": (("left", "right"), 22.0, 400, 450),
-    "QA-MILD": (("left", "right"), 8.0, 100, 200),
-    "QB-CONV": (("pump",), 20.0, 350, 400),
+    "AA-HOT": (("left", "right"), 22.0, 400, 450),
+    "AA-MILD": (("left", "right"), 8.0, 100, 200),
+    "AB-CONV": (("pump",), 20.0, 350, 400),
 }
 
 
@@ -80,12 +84,15 @@ def _stamp(day: date) -> str:
     return datetime(day.year, day.month, day.day).isoformat() + "Z"
 
 
-def histogram_rows(unit: str, first_day: int, days: int, meter0: float) -> str:
-    """CSV rows of daily histograms of one unit (one band, at 2 500 rpm)."""
+def histogram_rows(unit: str, first_day: int, days: int, as_of: date = AS_OF) -> str:
+    """CSV rows of daily histograms of one unit (one band, at 2 500 rpm); day 0 is
+    ``DAYS`` days before ``as_of``."""
     positions, per_day, lo, hi = DUTY[unit]
+    meter0 = METER0[unit]
+    start = as_of - timedelta(days=DAYS)
     rows = []
     for k in range(first_day, first_day + days):
-        day = START + timedelta(days=k)
+        day = start + timedelta(days=k)
         m0, m1 = meter0 + per_day * k, meter0 + per_day * (k + 1)
         for pos in positions:
             rows.append(
@@ -95,19 +102,29 @@ def histogram_rows(unit: str, first_day: int, days: int, meter0: float) -> str:
     return "".join(rows)
 
 
-READINGS = """\
-unit,position,taken_at,hour_meter,case_drain_lpm,test_pressure_bar,oil_temp_c,iso4406
-QA-HOT,left,2026-02-02T10:00:00Z,1088.0,1.10,250,50,18/16/13
-QA-HOT,left,2026-02-16T10:00:00Z,1396.0,1.35,250,50,19/17/14
-QA-HOT,left,2026-03-02T10:00:00Z,1704.0,1.62,250,50,20/18/15
-QA-HOT,right,2026-03-02T10:00:00Z,1704.0,1.20,250,50,20/18/15
-"""
+READING_HEADER = (
+    "unit,position,taken_at,hour_meter,case_drain_lpm,test_pressure_bar,oil_temp_c,iso4406\n"
+)
+READINGS = (  # (day, position, case drain [L/min] at the reference 250 bar / 50 degC, code)
+    (4, "left", 1.10, "18/16/13"),
+    (18, "left", 1.35, "19/17/14"),
+    (32, "left", 1.62, "20/18/15"),
+    (32, "right", 1.20, "20/18/15"),
+)
 
-METER0 = {"QA-HOT": 1000.0, "QA-MILD": 500.0, "QB-CONV": 8000.0}
-MILD_DAYS = DAYS - 3  # QA-MILD's data stops three days before the as-of date
+
+def readings_csv(as_of: date = AS_OF) -> str:
+    """AA-HOT's service checks: a rising case drain on the left loop, oil samples."""
+    start = as_of - timedelta(days=DAYS)
+    rows = [
+        f"AA-HOT,{pos},{(start + timedelta(days=k)).isoformat()}T10:00:00Z,"
+        f"{METER0['AA-HOT'] + 22.0 * k:.1f},{q},250,50,{code}\n"
+        for k, pos, q, code in READINGS
+    ]
+    return READING_HEADER + "".join(rows)
 
 
-def write_fleet(folder: Path) -> dict[str, Path]:
+def write_fleet(folder: Path, as_of: date = AS_OF) -> dict[str, Path]:
     """Write the registry, the histogram exports and the readings into ``folder``."""
     folder.mkdir(parents=True, exist_ok=True)
     files = {
@@ -118,31 +135,31 @@ def write_fleet(folder: Path) -> dict[str, Path]:
         "readings": folder / "readings.csv",
     }
     files["registry"].write_text(REGISTRY, encoding="utf-8")
-    files["hot"].write_text(HEADER + histogram_rows("QA-HOT", 0, DAYS, METER0["QA-HOT"]))
-    files["mild"].write_text(HEADER + histogram_rows("QA-MILD", 0, MILD_DAYS, METER0["QA-MILD"]))
-    files["conv"].write_text(HEADER + histogram_rows("QB-CONV", 0, DAYS, METER0["QB-CONV"]))
-    files["readings"].write_text(READINGS, encoding="utf-8")
+    files["hot"].write_text(HEADER + histogram_rows("AA-HOT", 0, DAYS, as_of))
+    files["mild"].write_text(HEADER + histogram_rows("AA-MILD", 0, MILD_DAYS, as_of))
+    files["conv"].write_text(HEADER + histogram_rows("AB-CONV", 0, DAYS, as_of))
+    files["readings"].write_text(readings_csv(as_of), encoding="utf-8")
     return files
 
 
-def good_upload() -> bytes:
-    """QA-MILD's next two days (new data, accepted)."""
-    return (HEADER + histogram_rows("QA-MILD", MILD_DAYS, 2, METER0["QA-MILD"])).encode()
+def good_upload(as_of: date = AS_OF) -> bytes:
+    """AA-MILD's next two days (new data, accepted)."""
+    return (HEADER + histogram_rows("AA-MILD", MILD_DAYS, 2, as_of)).encode()
 
 
-def broken_upload() -> bytes:
-    """Two days of QA-MILD where line 3 has negative hours (rejected whole)."""
-    text = HEADER + histogram_rows("QA-MILD", MILD_DAYS, 2, METER0["QA-MILD"])
+def broken_upload(as_of: date = AS_OF) -> bytes:
+    """Two days of AA-MILD where line 3 has negative hours (rejected whole)."""
+    text = HEADER + histogram_rows("AA-MILD", MILD_DAYS, 2, as_of)
     lines = text.splitlines(keepends=True)
     lines[2] = lines[2].replace(",8.0,2500", ",-8.0,2500")
     return "".join(lines).encode()
 
 
-def build_store(url: str, folder: Path) -> dict[str, Path]:
+def build_store(url: str, folder: Path, as_of: date = AS_OF) -> dict[str, Path]:
     """Create the store at ``url`` and load the fleet into it through the service."""
     from monitor import service
 
-    files = write_fleet(folder)
+    files = write_fleet(folder, as_of)
     engine = service.init_db(url)
     try:
         service.import_registry(engine, files["registry"].read_bytes(), "registry.yaml")

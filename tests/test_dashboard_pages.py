@@ -1,7 +1,7 @@
 """Every dashboard page runs in Streamlit's AppTest against a real SQLite store.
 
 The store is the hand-checked fleet of ``tests/dashboard_fleet.py`` loaded through
-the service, so the most urgent unit (QA-HOT) is known without the ranking code.
+the service, so the most urgent unit (AA-HOT) is known without the ranking code.
 """
 
 from __future__ import annotations
@@ -71,7 +71,7 @@ def test_fleet_page_ranks_the_hand_made_most_urgent_unit_first(store):
     table = ranking(at)
     assert table["unit"].iloc[0] == fx.MOST_URGENT
     assert table["status"].iloc[0].endswith("act now")
-    assert list(table["unit"]) == ["QA-HOT", "QA-HOT", "QB-CONV", "QA-MILD", "QA-MILD"]
+    assert list(table["unit"]) == ["AA-HOT", "AA-HOT", "AB-CONV", "AA-MILD", "AA-MILD"]
     assert "5 of 5 components shown" in " ".join(c.value for c in at.caption)
     assert len(at.get("plotly_chart")) == 1
 
@@ -79,13 +79,13 @@ def test_fleet_page_ranks_the_hand_made_most_urgent_unit_first(store):
 def test_fleet_filters_change_the_rows(store):
     at = start()
     at.multiselect(key="f_site").set_value(["South Mill"]).run()
-    assert list(ranking(at)["unit"]) == ["QB-CONV"]
+    assert list(ranking(at)["unit"]) == ["AB-CONV"]
     at.multiselect(key="f_site").set_value([]).run()
     at.multiselect(key="f_status").set_value(["healthy"]).run()
-    assert set(ranking(at)["unit"]) == {"QA-MILD"}
+    assert set(ranking(at)["unit"]) == {"AA-MILD"}
     at.multiselect(key="f_status").set_value([]).run()
     at.text_input(key="f_search").input("hot").run()
-    assert list(ranking(at)["unit"]) == ["QA-HOT", "QA-HOT"]
+    assert list(ranking(at)["unit"]) == ["AA-HOT", "AA-HOT"]
     at.multiselect(key="f_type").set_value(["chain conveyor"]).run()
     assert ranking(at).empty
 
@@ -109,9 +109,9 @@ def test_unit_page_by_query_parameter_shows_every_chart(store):
 
 def test_unit_page_selectbox_picks_another_unit(store):
     at = start("unit", unit=fx.MOST_URGENT)
-    at.selectbox[0].set_value("QB-CONV").run()
+    at.selectbox[0].set_value("AB-CONV").run()
     assert not at.exception
-    assert at.title[0].value == "Unit QB-CONV"
+    assert at.title[0].value == "Unit AB-CONV"
     assert len(at.get("plotly_chart")) == 5
 
 
@@ -122,7 +122,7 @@ def test_unit_page_unknown_tag_says_so(store):
 
 def test_upload_good_file_is_stored_and_refreshes_the_ranking(store):
     at = start()
-    age_before = data_age(at, "QA-MILD")
+    age_before = data_age(at, "AA-MILD")
     before = counts(store)
     at.switch_page("app_pages/upload.py").run()
     at.file_uploader[0].set_value(("qa-mild-next.csv", fx.good_upload(), "text/csv")).run()
@@ -134,7 +134,7 @@ def test_upload_good_file_is_stored_and_refreshes_the_ranking(store):
     assert after["upload_file"] == before["upload_file"] + 1
     assert after != before
     at.switch_page("app_pages/fleet.py").run()
-    age_after = data_age(at, "QA-MILD")
+    age_after = data_age(at, "AA-MILD")
     assert age_after < age_before  # the cached ranking was cleared
 
 
@@ -175,7 +175,7 @@ def test_upload_too_large_is_rejected_in_code(store, monkeypatch):
 
 def test_settings_page_saves_and_refuses_unordered_bands(store):
     at = start("settings")
-    assert "QA-HOT" in at.code[0].value  # the registry, read-only
+    assert "AA-HOT" in at.code[0].value  # the registry, read-only
     inputs = {n.label: n for n in at.number_input}
     inputs["due at or below [h]"].set_value(2000.0)  # above plan (1000): refused
     at.button[0].click().run()  # the form's submit button
@@ -186,9 +186,9 @@ def test_settings_page_saves_and_refuses_unordered_bands(store):
     at.button[0].click().run()
     assert at.success, [e.value for e in at.error]
     assert service.get_settings(service.init_db(store))["status_limits"]["due_h"] == 500.0
-    at.switch_page("app_pages/fleet.py").run()  # QB-CONV (455 h) is now "due soon"
+    at.switch_page("app_pages/fleet.py").run()  # AB-CONV (455 h) is now "due soon"
     table = ranking(at)
-    assert table.loc[table["unit"] == "QB-CONV", "status"].iloc[0].endswith("due soon")
+    assert table.loc[table["unit"] == "AB-CONV", "status"].iloc[0].endswith("due soon")
 
 
 def test_plan_page_plans_the_urgent_unit_in_week_zero(store):
@@ -198,5 +198,5 @@ def test_plan_page_plans_the_urgent_unit_in_week_zero(store):
     assert len(at.get("plotly_chart")) == 2
     assert len(at.get("download_button")) == 3
     planned = next(d.value for d in at.dataframe if "on_time" in d.value.columns)
-    assert list(planned["unit"].iloc[:2]) == ["QA-HOT", "QA-HOT"]
+    assert list(planned["unit"].iloc[:2]) == ["AA-HOT", "AA-HOT"]
     assert set(planned["week_start"].iloc[:2]) == {fx.AS_OF}  # week 0: already due
