@@ -154,7 +154,7 @@ def test_upload_broken_file_is_rejected_with_its_line_and_stores_nothing(store):
     assert not at.exception
     assert list(at.dataframe[0].value["Result"]) == ["rejected"]
     assert "broken.csv" in at.error[0].value and "nothing from it was stored" in at.error[0].value
-    problems = at.dataframe[1].value
+    problems = at.table[0].value
     assert 3 in list(problems["Line"])
     assert any("hours" in p and ">= 0" in p for p in problems["Problem"])
     assert counts(store) == before
@@ -168,7 +168,7 @@ def test_upload_too_large_is_rejected_in_code(store, monkeypatch):
     at = start("upload")
     at.file_uploader[0].set_value(("big.csv", fx.good_upload(), "text/csv")).run()
     at.button(key="upload_go").click().run()
-    problems = " ".join(str(v) for v in at.dataframe[1].value["Problem"])
+    problems = " ".join(str(v) for v in at.table[0].value["Problem"])
     assert "larger than the 50 MB limit" in problems
     assert counts(store) == before
 

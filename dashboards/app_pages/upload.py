@@ -43,6 +43,10 @@ for r in results:
         with st.container(border=True):
             st.error(f"**{r.name}** was rejected; nothing from it was stored. "
                      "Fix these problems and upload it again:")  # fmt: skip
-            st.dataframe(ui.problems_frame(r.problems), hide_index=True, key=f"p_{r.name}")
+            problems = ui.problems_frame(r.problems)
+            if len(problems) <= 50:  # a table wraps long messages
+                st.table(problems, hide_index=True, border="horizontal")
+            else:
+                st.dataframe(problems, hide_index=True, key=f"p_{r.name}")
 if any(r.status == "accepted" for r in results):
     st.success("The fleet ranking now includes the accepted files.")
