@@ -263,6 +263,33 @@ def trend_frame(
     )
 
 
+def _reading_traces(fig: go.Figure, readings: pd.DataFrame) -> None:
+    used = readings["used"].astype(bool) if "used" in readings else pd.Series(True, readings.index)
+    for mask, name, style in (
+        (used, "reading (this life)", {"color": TREND, "size": 8}),
+        (~used, "reading (before rebuild)", {"color": "#B8C2CC", "symbol": "circle-open"}),
+    ):  # fmt: skip
+        part = readings[mask]
+        if len(part):
+            fig.add_scatter(
+                x=part["hour_meter"], y=part["normalised_lpm"], mode="markers", name=name,
+                marker=style, hovertemplate="%{x:,.0f} h: %{y:.2f} L/min<extra></extra>",
+            )  # fmt: skip
+
+
+def _trend_traces(fig: go.Figure, line: pd.DataFrame) -> None:
+    fig.add_scatter(
+        x=list(line["hour_meter"]) + list(line["hour_meter"][::-1]),
+        y=list(line["high_lpm"]) + list(line["low_lpm"][::-1]),
+        fill="toself", fillcolor=BAND, line={"width": 0}, hoverinfo="skip",
+        name="95 % slope interval",
+    )  # fmt: skip
+    fig.add_scatter(
+        x=line["hour_meter"], y=line["fitted_lpm"], mode="lines", name="Theil–Sen trend",
+        line={"color": TREND, "width": 2},
+    )  # fmt: skip
+
+
 def case_drain_figure(
     readings: pd.DataFrame,
     limit_lpm: float | None,
@@ -277,29 +304,10 @@ def case_drain_figure(
     fig = go.Figure()
     if readings.empty:
         _empty(fig, "No case-drain readings")
-    used = readings["used"].astype(bool) if "used" in readings else pd.Series(True, readings.index)
-    for mask, name, style in (
-        (used, "reading (this life)", {"color": TREND, "size": 8}),
-        (~used, "reading (before rebuild)", {"color": "#B8C2CC", "symbol": "circle-open"}),
-    ):  # fmt: skip
-        part = readings[mask]
-        if len(part):
-            fig.add_scatter(
-                x=part["hour_meter"], y=part["normalised_lpm"], mode="markers", name=name,
-                marker=style, hovertemplate="%{x:,.0f} h: %{y:.2f} L/min<extra></extra>",
-            )  # fmt: skip
+    _reading_traces(fig, readings)
     xs = list(readings["hour_meter"])
     if line is not None and not line.empty:
-        fig.add_scatter(
-            x=list(line["hour_meter"]) + list(line["hour_meter"][::-1]),
-            y=list(line["high_lpm"]) + list(line["low_lpm"][::-1]),
-            fill="toself", fillcolor=BAND, line={"width": 0}, hoverinfo="skip",
-            name="95 % slope interval",
-        )  # fmt: skip
-        fig.add_scatter(
-            x=line["hour_meter"], y=line["fitted_lpm"], mode="lines", name="Theil–Sen trend",
-            line={"color": TREND, "width": 2},
-        )  # fmt: skip
+        _trend_traces(fig, line)
         xs += list(line["hour_meter"])
     if limit_lpm is not None and not pd.isna(limit_lpm) and xs:
         fig.add_trace(

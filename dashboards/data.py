@@ -17,6 +17,7 @@ import pandas as pd
 import streamlit as st
 
 from monitor import planning, service
+from monitor.records import Problem
 
 ENV_URL = "DRIVESPAN_DB"
 MAX_UPLOAD_MB = 50
@@ -115,7 +116,7 @@ def upload(url: str | None, payload: bytes, name: str) -> service.FileResult:
     """Store one uploaded file through service.upload; clear the caches if it changed data."""
     if len(payload) > MAX_UPLOAD_BYTES:
         size = len(payload) / 1024 / 1024
-        problem = service.Problem(
+        problem = Problem(
             name, None, None, None,
             f"file is {size:.1f} MB, larger than the {MAX_UPLOAD_MB} MB limit: split the "
             "export into smaller files (for example one per month) and upload them one by one",

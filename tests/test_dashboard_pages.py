@@ -200,3 +200,18 @@ def test_plan_page_plans_the_urgent_unit_in_week_zero(store):
     planned = next(d.value for d in at.dataframe if "on_time" in d.value.columns)
     assert list(planned["unit"].iloc[:2]) == ["AA-HOT", "AA-HOT"]
     assert set(planned["week_start"].iloc[:2]) == {fx.AS_OF}  # week 0: already due
+
+
+def test_launch_command_sets_address_port_upload_limit_and_no_usage_stats():
+    from dashboards import launch
+
+    cmd = launch.command("sqlite:///x.db", port=8765, host="0.0.0.0")
+    flags = dict(zip(cmd[5::2], cmd[6::2], strict=True))
+    assert cmd[1:5] == ["-m", "streamlit", "run", str(launch.APP)]
+    assert flags["--server.port"] == "8765" and flags["--server.address"] == "0.0.0.0"
+    assert flags["--server.maxUploadSize"] == "50" and flags["--server.headless"] == "true"
+    assert flags["--browser.gatherUsageStats"] == "false"
+    assert "sqlite:///x.db" not in cmd  # the URL travels in the environment
+    assert launch.environment("sqlite:///x.db")["DRIVESPAN_DB"] == "sqlite:///x.db"
+    with pytest.raises(ValueError, match="port must be between"):
+        launch.command(port=0)
