@@ -1,0 +1,97 @@
+"""Use cases of the rebuild plan: its stored settings and a plan for an as-of date.
+
+The plan itself is computed by the pure :mod:`monitor.planning` on the fleet status
+from :func:`monitor.service.fleet_status`; this module only keeps the shop's
+settings (weekly capacity, per-site capacity, exchange stock, turnaround, pairing)
+in the store and turns bad values into one clear :class:`~monitor.service.DomainError`.
+"""
+
+from __future__ import annotations
+
+import copy
+from datetime import date
+
+from sqlalchemy import Engine
+
+from monitor import planning, queries, store
+from monitor.service import DomainError, _today, fleet_status
+
+PLAN_KEY = "plan"
+DEFAULT_PLAN_SETTINGS: dict = {
+    "horizon_weeks": 12,
+    "capacity_per_week": 3,
+    "site_capacity": {},
+    "exchange_stock": {},
+    "turnaround_days": 21.0,
+    "pair_within_h": 500.0,
+}
+"""Plan settings used where none are stored (common practice, no source: a small
+shop doing a few closed-loop rebuilds a week with a three-week core turnaround)."""
+
+
+def get_plan_settings(engine: Engine) -> dict:
+    """Plan settings: :data:`DEFAULT_PLAN_SETTINGS` overlaid with the stored ones."""
+    with engine.connect() as conn:
+        stored = queries.get_settings(conn).get(PLAN_KEY, {})
+    out = copy.deepcopy(DEFAULT_PLAN_SETTINGS)
+    out.update({k: v for k, v in stored.items() if k in out})
+    return out
+
+
+def _checked(values: dict) -> dict:
+    unknown = sorted(set(values) - set(DEFAULT_PLAN_SETTINGS))
+    if unknown:
+        raise DomainError(
+            f"unknown plan setting(s) {', '.join(unknown)}: known are "
+            f"{', '.join(DEFAULT_PLAN_SETTINGS)}"
+        )
+    try:
+        planning.make_settings(_today(), **_plan_kwargs(values))
+    except ValueError as err:
+        raise DomainError(f"plan settings rejected: {err}") from None
+    return values
+
+
+def _plan_kwargs(s: dict) -> dict:
+    stock = dict(s.get("exchange_stock") or {})
+    turnaround = s.get("turnaround_days")
+    return dict(
+        horizon_weeks=s["horizon_weeks"],
+        capacity_per_week=s["capacity_per_week"],
+        site_capacity=dict(s.get("site_capacity") or {}) or None,
+        exchange_stock=stock or None,
+        turnaround_days=turnaround if stock else None,
+        pair_within_h=s.get("pair_within_h"),
+    )
+
+
+def save_plan_settings(engine: Engine, values: dict) -> dict:
+    """Validate and store plan settings; return the settings now in force."""
+    merged = {**get_plan_settings(engine), **values}
+    _checked(merged)
+    with store.transaction(engine) as conn:
+        queries.put_settings(conn, {PLAN_KEY: merged})
+    return get_plan_settings(engine)
+
+
+def make_plan(
+    engine: Engine,
+    as_of: date | None = None,
+    *,
+    reliability_pct: float | None = None,
+    **overrides,
+) -> planning.Plan:
+    """The rebuild plan at ``as_of`` (default today) with the stored settings.
+
+    Keyword overrides (``horizon_weeks``, ``capacity_per_week``, ``site_capacity``,
+    ``exchange_stock``, ``turnaround_days``, ``pair_within_h``) apply to this plan only.
+    """
+    settings = {**get_plan_settings(engine), **{k: v for k, v in overrides.items()
+                                                if v is not None}}
+    _checked(settings)
+    as_of = as_of or _today()
+    status = fleet_status(engine, as_of, reliability_pct=reliability_pct)
+    try:
+        return planning.plan_rebuilds(status, as_of, **_plan_kwargs(settings))
+    except ValueError as err:
+        raise DomainError(f"plan rejected: {err}") from None
