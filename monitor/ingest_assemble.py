@@ -8,6 +8,9 @@ buffer, so the only per-histogram Python work is slicing and the record itself.
 
 from __future__ import annotations
 
+import gc
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -31,32 +34,25 @@ def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Hi
     start, end : numpy.ndarray
         Period start and end of every row [int64 ns since the epoch, UTC].
     """
+    with _no_gc():  # many small objects, no cycles: skip the collector's passes
+        return _records(t, g, start, end)
+
+
+def _records(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Histogram]:
     f = g.first
     n = len(f)
     ts = to_datetimes(np.r_[start[f], end[f]])
-    pl, ph, hours = g.col["pressure_low"], g.col["pressure_high"], g.col["hours"]
-    bounds = list(zip(g.starts.tolist(), g.ends.tolist(), strict=True))
-    lows = [pl[a:b] for a, b in bounds]
-    highs = [ph[a:b] for a, b in bounds]
-    cells = [hours[a:b] for a, b in bounds]
-    quantity = [QUANTITY_PRESSURE] * n
-    speed_lows: list[np.ndarray | None] = [None] * n
-    speed_highs: list[np.ndarray | None] = [None] * n
-    two_d = np.flatnonzero(g.d2[g.starts])
-    if two_d.size:
-        for k, m in zip(two_d.tolist(), _matrices(g, two_d), strict=True):
-            quantity[k] = QUANTITY_PRESSURE_SPEED
-            lows[k], highs[k], speed_lows[k], speed_highs[k], cells[k] = m
+    quantity, lows, highs, speed_lows, speed_highs, cells = _band_lists(g)
     mean = [None if x != x else x for x in t.num["mean_speed"][f].tolist()]  # NaN -> None
     if t.line0 is not None:
-        lines = np.minimum.reduceat(t.line0[g.order], g.starts).tolist()
+        lines = np.minimum.reduceat(g.sort(t.line0), g.starts).tolist()
     else:
         lines = [None] * n
     return list(
         map(
             Histogram,
-            t.strings("unit")[f].tolist(),
-            t.strings("position")[f].tolist(),
+            _strings(t, "unit", f),
+            _strings(t, "position", f),
             quantity,
             ts[:n],
             ts[n:],
@@ -71,6 +67,25 @@ def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Hi
             lines,
         )
     )
+
+
+def _band_lists(g: Groups) -> tuple[list, ...]:
+    """Per histogram: quantity, pressure low/high, speed low/high (or None), hours."""
+    n = len(g.starts)
+    pl, ph, hours = g.col["pressure_low"], g.col["pressure_high"], g.col["hours"]
+    bounds = list(zip(g.starts.tolist(), g.ends.tolist(), strict=True))
+    lows = [pl[a:b] for a, b in bounds]
+    highs = [ph[a:b] for a, b in bounds]
+    cells = [hours[a:b] for a, b in bounds]
+    quantity = [QUANTITY_PRESSURE] * n
+    speed_lows: list[np.ndarray | None] = [None] * n
+    speed_highs: list[np.ndarray | None] = [None] * n
+    two_d = np.flatnonzero(g.d2[g.starts])
+    if two_d.size:
+        for k, m in zip(two_d.tolist(), _matrices(g, two_d), strict=True):
+            quantity[k] = QUANTITY_PRESSURE_SPEED
+            lows[k], highs[k], speed_lows[k], speed_highs[k], cells[k] = m
+    return quantity, lows, highs, speed_lows, speed_highs, cells
 
 
 def _matrices(g: Groups, two_d: np.ndarray) -> list[tuple]:
@@ -115,3 +130,25 @@ def _index_within(new: np.ndarray, grp: np.ndarray, n_groups: int) -> tuple:
     counts = np.bincount(grp, weights=new, minlength=n_groups).astype(np.int64)
     base = np.r_[0, np.cumsum(counts)[:-1]]
     return c - base[grp], counts
+
+
+def _strings(t: Table, f: str, rows: np.ndarray) -> list[str]:
+    """The text of column ``f`` on ``rows`` (codes gathered first, then the few uniques)."""
+    codes, uniq = t.text[f]
+    return np.asarray(uniq, dtype=object)[codes[rows]].tolist()
+
+
+@contextmanager
+def _no_gc() -> Iterator[None]:
+    """Pause the cyclic garbage collector (restoring its previous state afterwards).
+
+    Building tens of thousands of records would otherwise trigger collector passes
+    over every live object of the process, which cost more than the building itself.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()

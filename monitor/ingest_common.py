@@ -199,6 +199,8 @@ def check_numbers(
 ) -> None:
     """Flag missing (when required), infinite, below-minimum and out-of-range values."""
     v = t.num[f]
+    if _all_valid(v, kind, required, minimum):
+        return
     with np.errstate(invalid="ignore"):
         missing = np.isnan(v) if required else np.zeros(len(v), dtype=bool)
         inf = np.isinf(v)
@@ -221,6 +223,17 @@ def check_numbers(
             )
 
         probs.add_rows(np.flatnonzero(rng), f, t, m)
+
+
+def _all_valid(v: np.ndarray, kind: str | None, required: bool, minimum: float) -> bool:
+    """True if no value of ``v`` needs a problem (one pass for the common, clean case)."""
+    lower = max(minimum, U.RANGES[kind][0]) if kind else minimum
+    upper = U.RANGES[kind][1] if kind else np.finfo(np.float64).max
+    with np.errstate(invalid="ignore"):
+        ok = (v >= lower) & (v <= upper)
+    if not required:
+        ok |= np.isnan(v)
+    return bool(ok.all())
 
 
 def group_ids(code_arrays: list[np.ndarray]) -> np.ndarray:

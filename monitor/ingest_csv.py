@@ -159,8 +159,7 @@ def _read_frame(
         keep_default_na=False,
         na_values=[""],
         skip_blank_lines=False,
-        engine="c",
-        encoding="utf-8-sig",
+        engine="c",  # the C tokenizer skips a UTF-8 byte-order mark itself
     )
     floats = {c: k for c, k in kinds.items() if k is not object}
     try:
@@ -239,11 +238,7 @@ def _csv_table(
 ) -> Table:
     """Column arrays of a CSV frame in canonical units; blank lines dropped."""
     text, num, raw, unit, notnum = _columns(frame, cols, text_cols, sep)
-    blank = np.ones(len(frame), dtype=bool)
-    for codes, uniq in text.values():
-        blank &= (uniq == "")[codes]
-    for lg, vals in raw.items():
-        blank &= np.isnan(vals) & ~notnum[lg]
+    blank = _blank_rows(len(frame), text, raw, notnum)
     keep = np.flatnonzero(~blank) if blank.any() else None
     if keep is not None:
         text = {k: (c[keep], q) for k, (c, q) in text.items()}
@@ -263,6 +258,18 @@ def _csv_table(
             ]
             probs.add_rows(rows, lg, t, f"`{names[lg]}` must be a number")
     return t
+
+
+def _blank_rows(n: int, text: dict, raw: dict, notnum: dict) -> np.ndarray:
+    """Mask of rows with every cell empty (blank lines in the file)."""
+    blank = np.ones(n, dtype=bool)
+    for codes, uniq in text.values():
+        blank &= (uniq == "")[codes]
+        if not blank.any():
+            return blank  # a column has no empty cell on any row still in question
+    for lg, vals in raw.items():
+        blank &= np.isnan(vals) & ~notnum[lg]
+    return blank
 
 
 def _columns(frame: pd.DataFrame, cols: Columns, text_cols: tuple[str, ...], sep: str) -> tuple:

@@ -102,26 +102,40 @@ class Groups:
     same: np.ndarray
     d2: np.ndarray
     col: dict[str, np.ndarray]
+    in_order: bool  # the table rows were already sorted: ``order`` is the identity
 
     @classmethod
     def of(cls, t: Table, is2d: np.ndarray) -> Groups:
         gid = group_ids([t.text[k][0] for k in HIST_TEXT])
         order = band_order(gid, t.num["pressure_low"], t.num["speed_low"])
-        gs_ = gid[order]
+        in_order = order is None
+        order = np.arange(t.n) if in_order else order
+        gs_ = gid if in_order else gid[order]
         brk = gs_[1:] != gs_[:-1]
         starts = np.flatnonzero(np.r_[True, brk])
         ends = np.r_[starts[1:], len(order)]
         gs = np.repeat(np.arange(len(starts)), ends - starts)
-        col = {f: t.num[f][order] for f in SORTED}
-        return cls(order, starts, ends, order[starts], gs, np.r_[False, ~brk], is2d[order], col)
+        col = {f: _own(t.num[f]) if in_order else t.num[f][order] for f in SORTED}
+        d2 = is2d if in_order else is2d[order]
+        return cls(order, starts, ends, order[starts], gs, np.r_[False, ~brk], d2, col, in_order)
+
+    def sort(self, values: np.ndarray) -> np.ndarray:
+        """Per-row ``values`` in sorted order."""
+        return values if self.in_order else values[self.order]
 
 
-def band_order(gid: np.ndarray, low: np.ndarray, speed: np.ndarray) -> np.ndarray:
+def _own(values: np.ndarray) -> np.ndarray:
+    """``values`` itself if it owns its memory, else a copy (records must not keep a view
+    of the whole parsed frame alive)."""
+    return values if values.base is None else values.copy()
+
+
+def band_order(gid: np.ndarray, low: np.ndarray, speed: np.ndarray) -> np.ndarray | None:
     """Row order by (gid, low, speed), stable: ``np.lexsort((speed, low, gid))``.
 
-    The two float keys are replaced by their dense ranks (NaN last, as in a sort) and
-    combined with ``gid`` into one int64 key, whose stable argsort is much faster than
-    a three-key lexsort and gives the same order.
+    None if the rows are in that order already. The two float keys are replaced by their
+    dense ranks (NaN last, as in a sort) and combined with ``gid`` into one int64 key,
+    whose stable argsort is much faster than a three-key lexsort and gives the same order.
     """
     lr, ln = _dense_ranks(low)
     sr, sn = _dense_ranks(speed)
@@ -129,7 +143,7 @@ def band_order(gid: np.ndarray, low: np.ndarray, speed: np.ndarray) -> np.ndarra
         return np.lexsort((speed, low, gid))
     key = gid * (ln * sn) + lr * sn + sr
     if np.all(key[1:] >= key[:-1]):  # already in order, as most exports are
-        return np.arange(len(key))
+        return None
     return np.argsort(key, kind="stable")
 
 
@@ -144,7 +158,7 @@ def _dense_ranks(x: np.ndarray) -> tuple[np.ndarray, int]:
 def _check_group_constants(t: Table, g: Groups, probs: ProblemList) -> None:
     """Hour meter and mean speed must be the same on every row of one histogram."""
     for f in ("hour_meter_start", "hour_meter_end", "mean_speed"):
-        v = t.num[f][g.order]
+        v = g.sort(t.num[f])
         ref = np.repeat(v[g.starts], g.ends - g.starts)
         differ = ~((v == ref) | (np.isnan(v) & np.isnan(ref)))
         if not differ.any():
@@ -293,12 +307,21 @@ def _check_periods(
             "within a period (a replaced meter is recorded in the fleet registry)"
         ),
     )
+    _check_hours_sum(t, g, he - hs, back, probs)
+
+
+def _check_hours_sum(
+    t: Table, g: Groups, dh: np.ndarray, back: np.ndarray, probs: ProblemList
+) -> None:
+    """The hours of a histogram add up to its hour-meter advance ``dh`` [h], within tolerance."""
+    f = g.first
     total = np.add.reduceat(g.col["hours"], g.starts)
-    dh = he - hs
     tol = np.maximum(HOURS_TOLERANCE_H, HOURS_TOLERANCE_FRACTION * dh)
     with np.errstate(invalid="ignore"):
         off = (np.abs(total - dh) > tol) & ~back
-    k_of = {int(r): k for k, r in enumerate(f.tolist())}
+    if not off.any():
+        return
+    k_of = dict(zip(f[off].tolist(), np.flatnonzero(off).tolist(), strict=True))
     probs.add_rows(
         f[off],
         "hours",
