@@ -252,17 +252,34 @@ def case_drain_limit_lpm(row: Mapping) -> float | None:
 
 
 def normalised_case_drain(
-    readings: pd.DataFrame, row: Mapping, line: tuple[float, float] | None
+    case_drain_lpm: np.ndarray,
+    test_dp_bar: np.ndarray,
+    oil_temp_c: np.ndarray,
+    row: Mapping,
+    line: tuple[float, float] | None,
 ) -> np.ndarray:
-    """Readings of one component normalised to its model's test conditions [L/min].
+    """Readings of one component normalised to its model's test conditions.
 
-    Flushing flow subtracted; pressure and viscosity scaling applied where the reading
-    records its conditions (see :func:`monitor.wear.normalise_case_drain_lpm`).
+    Parameters
+    ----------
+    case_drain_lpm, test_dp_bar, oil_temp_c : array
+        Raw flow [L/min], test pressure [bar] and oil temperature [degC] (nan: not
+        recorded).
+    row : mapping
+        The component's row (model ``m_*`` fields).
+    line : tuple of float or None
+        ASTM D341 line of the unit's oil.
+
+    Returns
+    -------
+    numpy.ndarray
+        Normalised flow [L/min], flushing subtracted (see
+        :func:`monitor.wear.normalise_case_drain_lpm`).
     """
     return wear.normalise_case_drain_lpm(
-        readings["case_drain_lpm"].to_numpy(float),
-        readings["test_pressure_bar"].to_numpy(float),
-        readings["oil_temp_c"].to_numpy(float),
+        case_drain_lpm,
+        test_dp_bar,
+        oil_temp_c,
         ref_dp_bar=_num(row.get("m_case_drain_test_dp_bar")),
         ref_temp_c=_num(row.get("m_case_drain_test_temp_c")),
         oil_line=line,
@@ -323,60 +340,61 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
         [L/min/h], remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high [h],
         case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``.
     """
-    out = pd.DataFrame(
-        index=inputs.index,
-        data={
-            "n_wear_readings": 0,
-            "case_drain_level_lpm": np.nan,
-            "case_drain_slope_lpm_per_h": np.nan,
-            "remaining_wear_h": np.nan,
-            "remaining_wear_h_low": np.nan,
-            "remaining_wear_h_high": np.nan,
-            "case_drain_limit_lpm": [case_drain_limit_lpm(r) for r in inputs.to_dict("records")],
-            "case_drain_step": False,
-        },
-    )
-    groups = dict(tuple(readings.groupby("component_id", sort=False))) if len(readings) else {}
+    records = inputs.to_dict("records")
+    limits = [case_drain_limit_lpm(r) for r in records]
+    res = np.full((len(records), 5), np.nan)
+    count, step = np.zeros(len(records), int), np.zeros(len(records), bool)
+    spans, cols = _reading_spans(readings)
     lines: dict[object, tuple[float, float] | None] = {}
-    for idx, row in zip(inputs.index, inputs.to_dict("records"), strict=True):
-        rd = groups.get(row["component_id"])
-        if rd is None:
+    for i, row in enumerate(records):
+        span = spans.get(row["component_id"])
+        if span is None:
             continue
-        oil_name = row.get("oil_name")
-        if oil_name not in lines:
-            lines[oil_name] = oil_viscosity_line(row)
-        x = rd["hour_meter"].to_numpy(float)
-        y = normalised_case_drain(rd, row, lines[oil_name])
-        now = np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()])
-        trend = _fit(
-            x,
-            y,
-            out.at[idx, "case_drain_limit_lpm"]
-            if pd.notna(out.at[idx, "case_drain_limit_lpm"])
-            else None,
-            now,
-            params,
+        if row.get("oil_name") not in lines:
+            lines[row.get("oil_name")] = oil_viscosity_line(row)
+        x = cols[0][span]
+        y = normalised_case_drain(
+            cols[1][span], cols[2][span], cols[3][span], row, lines[row.get("oil_name")]
         )
-        out.loc[idx, "n_wear_readings"] = int(x.size)
-        out.loc[idx, "case_drain_step"] = case_drain_step(x, y, params)
+        now = np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()])
+        trend = _fit(x, y, limits[i], now, params)
+        count[i], step[i] = x.size, case_drain_step(x, y, params)
         if trend is not None:
-            out.loc[
-                idx,
-                [
-                    "case_drain_level_lpm",
-                    "case_drain_slope_lpm_per_h",
-                    "remaining_wear_h",
-                    "remaining_wear_h_low",
-                    "remaining_wear_h_high",
-                ],
-            ] = [
+            res[i] = (
                 trend.level_now,
                 trend.slope,
                 trend.remaining_h,
                 trend.remaining_h_low,
                 trend.remaining_h_high,
-            ]
+            )
+    names = (
+        "case_drain_level_lpm",
+        "case_drain_slope_lpm_per_h",
+        "remaining_wear_h",
+        "remaining_wear_h_low",
+        "remaining_wear_h_high",
+    )
+    out = pd.DataFrame(res, columns=list(names), index=inputs.index)
+    out["n_wear_readings"] = count
+    out["case_drain_limit_lpm"] = np.array([np.nan if v is None else v for v in limits], float)
+    out["case_drain_step"] = step
     return out
+
+
+def _reading_spans(readings: pd.DataFrame) -> tuple[dict, list[np.ndarray]]:
+    """Slices of each component's readings (sorted by time) and the value arrays."""
+    if readings.empty:
+        return {}, []
+    rd = readings.sort_values("component_id", kind="stable")  # time order kept within
+    cid = rd["component_id"].to_numpy()
+    starts = np.flatnonzero(np.r_[True, cid[1:] != cid[:-1]])
+    ends = np.r_[starts[1:], cid.size]
+    spans = {cid[s]: slice(s, e) for s, e in zip(starts, ends, strict=True)}
+    cols = [
+        rd[c].to_numpy(float)
+        for c in ("hour_meter", "case_drain_lpm", "test_pressure_bar", "oil_temp_c")
+    ]
+    return spans, cols
 
 
 # --- assembling the status -------------------------------------------------------------
@@ -578,7 +596,11 @@ def case_drain_detail(
 ) -> tuple[pd.DataFrame, wear.WearTrend | None]:
     """Every case-drain reading of a component (raw and normalised) and its current trend."""
     rd = readings[readings["case_drain_lpm"].notna()].reset_index(drop=True)
-    norm = normalised_case_drain(rd, row, oil_viscosity_line(row)) if len(rd) else []
+    norm = normalised_case_drain(
+        *(rd[c].to_numpy(float) for c in ("case_drain_lpm", "test_pressure_bar", "oil_temp_c")),
+        row,
+        oil_viscosity_line(row),
+    )
     used = (
         np.ones(len(rd), bool)
         if rebuilt_at is None

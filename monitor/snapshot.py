@@ -244,9 +244,10 @@ def readings_in_life(
     Returns
     -------
     pandas.DataFrame
-        ``component_id, taken_at [UTC], hour_meter [h], case_drain_lpm [L/min],
-        test_pressure_bar [bar], oil_temp_c [degC]``, ordered by component and time;
-        only readings with a case-drain value taken at or after the last rebuild.
+        ``component_id, hour_meter [h], case_drain_lpm [L/min], test_pressure_bar [bar],
+        oil_temp_c [degC]``, ordered by component and time of the reading; only
+        readings with a case-drain value taken at or after the last rebuild. (The time
+        itself is left out: parsing it is most of the cost of this read.)
     """
     as_of = _utc(as_of)
     r, se = store.reading, store.service_event
@@ -259,7 +260,6 @@ def readings_in_life(
     q = (
         select(
             r.c.component_id,
-            r.c.taken_at,
             r.c.hour_meter,
             r.c.case_drain_lpm,
             r.c.test_pressure_bar,
@@ -277,15 +277,14 @@ def readings_in_life(
         q = q.where(r.c.component_id.in_([int(i) for i in component_ids]))
     cols = [
         "component_id",
-        "taken_at",
         "hour_meter",
         "case_drain_lpm",
         "test_pressure_bar",
         "oil_temp_c",
     ]
-    df = pd.DataFrame(conn.execute(q).all(), columns=cols)
-    df["taken_at"] = pd.to_datetime(df["taken_at"], utc=True)
-    for col in cols[2:]:
+    rows = [tuple(r) for r in conn.execute(q)]  # plain tuples: far faster into pandas
+    df = pd.DataFrame.from_records(rows, columns=cols)
+    for col in cols[1:]:
         df[col] = pd.to_numeric(df[col]).astype(float)
     return df
 

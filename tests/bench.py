@@ -1,0 +1,415 @@
+"""Benchmarks of drivespan's heavy paths, run by hand (not collected by pytest).
+
+    python tests/bench.py [--units N] [--years Y] [--ingest-units N] [--out FILE]
+
+Stages, each in its own subprocess so its peak memory (max RSS) is its own:
+
+- ``ingest``: a CSV of daily pressure histograms (8 bands each) for ``--ingest-units``
+  units x 2 loops x 60 days is parsed and stored with its ledger rows through
+  :func:`monitor.service.ingest_bytes`; reported as bands per second and as a ratio to a
+  plain ``pandas.read_csv`` of the same bytes in the same process.
+- ``build``: a store of ``--units`` units x 2 loops x ``--years`` years of daily uploads
+  written directly with ``executemany`` in large batches (not through ingest), plus a
+  monthly case-drain reading per loop.
+- ``recompute``: :func:`monitor.service.recompute` over that store.
+- ``rank``: :func:`monitor.service.fleet_status` + records over that store (best of 3).
+- ``dashboard``: the fleet page's render, if the dashboard offers
+  ``dashboards.bench_hook.render_fleet_page(engine)``; skipped otherwise.
+
+Targets (design brief): ingest >= 500 000 bands/s and <= 3x read_csv; recompute of
+2 000 x 2 x 3 years (~4.4 M histograms) < 60 s; rank < 0.5 s; each < 1.5 GB.
+The synthetic fleet is invented and seeded; its numbers mean nothing.
+"""
+
+from __future__ import annotations
+
+import argparse
+import io
+import json
+import platform
+import resource
+import sqlite3
+import subprocess
+import sys
+import tempfile
+import time
+from datetime import UTC, date, datetime, timedelta
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+START = datetime(2023, 1, 1, tzinfo=UTC)
+BANDS_LO = np.array([0, 50, 100, 150, 200, 250, 300, 350], float)
+BANDS_HI = BANDS_LO + 50.0
+N_BANDS = BANDS_LO.size
+BATCH = 50_000
+
+
+def registry_yaml(units: int) -> str:
+    """An invented fleet: two pump models, one oil, four sites, ``units`` units."""
+    lines = [
+        "oils:",
+        "  - {name: bench-oil-46, iso_vg: 46, viscosity_index: 100}",
+        "component_models:",
+        "  - {name: BQ-70, kind: pump, displacement_cm3: 70, rated_dp_bar: 400,"
+        " rated_speed_rpm: 2400, rated_l10_h: 4500, low_side_bar: 25, relief_bar: 420,"
+        " case_drain: {test_dp_bar: 250, test_temp_c: 50, new_lpm: 1.4, limit_factor: 2.0}}",
+        "  - {name: BQ-45, kind: pump, displacement_cm3: 45, rated_dp_bar: 350,"
+        " rated_speed_rpm: 2800, rated_l10_h: 5000, low_side_bar: 20, relief_bar: 380,"
+        " cutoff_bar: 350, case_drain: {test_dp_bar: 200, test_temp_c: 50, new_lpm: 1.0,"
+        " limit_lpm: 2.2}}",
+        "sites:",
+        *[f"  - name: Bench Site {s}" for s in range(4)],
+        "units:",
+    ]
+    for u in range(units):
+        model = "BQ-70" if u % 3 else "BQ-45"
+        lines += [
+            f"  - tag: BU-{u:05d}",
+            f"    site: Bench Site {u % 4}",
+            "    machine_type: bench loader",
+            "    oil: bench-oil-46",
+            "    components:",
+            f"      - {{position: left, model: {model}}}",
+            f"      - {{position: right, model: {model}}}",
+        ]
+    return "\n".join(lines) + "\n"
+
+
+def daily_hours(rng: np.random.Generator, n: int) -> np.ndarray:
+    """(n, 8) hours per band: 6-14 h a day, heavier bands rarer."""
+    weights = np.array([4, 6, 8, 6, 4, 2, 1, 0.3])
+    share = rng.dirichlet(weights * 5, size=n)
+    return np.round(share * rng.uniform(6, 14, size=(n, 1)), 3)
+
+
+def ingest_csv(units: int, days: int, seed: int = 1) -> bytes:
+    rng = np.random.default_rng(seed)
+    rows = []
+    for u in range(units):
+        hm = 1000.0
+        hours = daily_hours(rng, days)
+        for d in range(days):
+            t0 = (START + timedelta(days=d)).strftime("%Y-%m-%dT%H:%M:%SZ")
+            t1 = (START + timedelta(days=d + 1)).strftime("%Y-%m-%dT%H:%M:%SZ")
+            tot = round(float(hours[d].sum()), 3)
+            for pos in ("left", "right"):
+                for b in range(N_BANDS):
+                    rows.append(
+                        f"BU-{u:05d},{pos},{t0},{t1},{hm:.3f},{hm + tot:.3f},pressure,"
+                        f"{BANDS_LO[b]:g},{BANDS_HI[b]:g},{hours[d, b]:g},2200"
+                    )
+            hm += tot
+    head = (
+        "unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
+        "pressure_low_bar,pressure_high_bar,hours,mean_speed_rpm"
+    )
+    return (head + "\n" + "\n".join(rows) + "\n").encode()
+
+
+def _peak_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def stage_ingest(args: argparse.Namespace) -> dict:
+    from monitor import ingest, service
+
+    data = ingest_csv(args.ingest_units, 60)
+    bands = data.count(b"\n") - 1
+    t = time.perf_counter()
+    pd.read_csv(io.BytesIO(data))
+    t_pandas = time.perf_counter() - t
+    t = time.perf_counter()
+    parsed = ingest.parse_file(data, "bench.csv")
+    t_parse = time.perf_counter() - t
+    assert not parsed.problems, parsed.problems[:3]
+    with tempfile.TemporaryDirectory() as tmp:
+        engine = service.init_db(f"sqlite:///{tmp}/ingest.db")
+        service.import_registry(engine, registry_yaml(args.ingest_units), "bench.yaml")
+        t = time.perf_counter()
+        res = service.ingest_bytes(engine, data, "bench.csv")
+        t_ingest = time.perf_counter() - t
+        engine.dispose()
+    assert res.status == service.ACCEPTED, [str(p) for p in res.problems[:3]]
+    return {
+        "bands": bands,
+        "read_csv_s": t_pandas,
+        "parse_s": t_parse,
+        "ingest_s": t_ingest,
+        "parse_bands_per_s": bands / t_parse,
+        "ingest_bands_per_s": bands / t_ingest,
+        "parse_ratio_to_read_csv": t_parse / t_pandas,
+        "ingest_ratio_to_read_csv": t_ingest / t_pandas,
+        "peak_mb": _peak_mb(),
+    }
+
+
+def _ts(t: datetime) -> str:
+    return t.strftime("%Y-%m-%d %H:%M:%S.000000")  # SQLAlchemy's SQLite DATETIME format
+
+
+def stage_build(args: argparse.Namespace) -> dict:
+    from monitor import service
+
+    path = Path(args.db)
+    path.unlink(missing_ok=True)
+    t = time.perf_counter()
+    engine = service.init_db(f"sqlite:///{path}")
+    service.import_registry(engine, registry_yaml(args.units), "bench.yaml")
+    engine.dispose()
+    con = sqlite3.connect(path)
+    con.execute("PRAGMA journal_mode=WAL")
+    con.execute("PRAGMA synchronous=OFF")
+    comps = con.execute(
+        "SELECT c.unit_id, c.id FROM component c ORDER BY c.unit_id, c.id"
+    ).fetchall()
+    by_unit: dict[int, list[int]] = {}
+    for u, c in comps:
+        by_unit.setdefault(u, []).append(c)
+    con.execute(
+        "INSERT INTO upload_file (sha256, name, received_at, n_histograms, n_readings) "
+        "VALUES ('bench', 'bench', ?, 0, 0)",
+        (_ts(datetime.now(UTC)),),
+    )
+    file_id = con.execute("SELECT id FROM upload_file").fetchone()[0]
+    days = int(round(365 * args.years))
+    n_hist = _build_uploads(con, by_unit, file_id, days, np.random.default_rng(7))
+    n_read = _build_readings(con, by_unit, file_id, days, np.random.default_rng(8))
+    con.commit()
+    con.close()
+    return {
+        "histograms": n_hist,
+        "readings": n_read,
+        "build_s": time.perf_counter() - t,
+        "db_mb": path.stat().st_size / 1e6,
+        "peak_mb": _peak_mb(),
+    }
+
+
+def _build_uploads(con, by_unit: dict, file_id: int, days: int, rng) -> int:  # noqa: ANN001
+    bands = np.concatenate([BANDS_LO, BANDS_HI]).astype("<f8").tobytes()
+    stamps = [_ts(START + timedelta(days=d)) for d in range(days + 1)]
+    uid = con.execute("SELECT coalesce(max(id), 0) FROM upload").fetchone()[0]
+    ups, hists, n = [], [], 0
+    for unit_id, cids in by_unit.items():
+        hours = daily_hours(rng, days * len(cids)).reshape(days, len(cids), N_BANDS)
+        meter = np.concatenate([[500.0], 500.0 + np.cumsum(hours[:, 0].sum(axis=1))])
+        for d in range(days):
+            uid += 1
+            ups.append((uid, file_id, unit_id, stamps[d], stamps[d + 1], meter[d], meter[d + 1]))
+            for j, cid in enumerate(cids):
+                h = hours[d, j]
+                hists.append(
+                    (
+                        uid,
+                        cid,
+                        "pressure",
+                        stamps[d],
+                        stamps[d + 1],
+                        N_BANDS,
+                        0,
+                        bands,
+                        None,
+                        h.astype("<f8").tobytes(),
+                        float(h.sum()),
+                        2200.0,
+                        f"{cid}-{d}",
+                    )
+                )
+        if len(hists) >= BATCH:
+            n += _flush(con, ups, hists)
+    return n + _flush(con, ups, hists)
+
+
+def _flush(con, ups: list, hists: list) -> int:  # noqa: ANN001
+    con.executemany(
+        "INSERT INTO upload (id, file_id, unit_id, period_start, period_end, "
+        "hour_meter_start, hour_meter_end) VALUES (?,?,?,?,?,?,?)",
+        ups,
+    )
+    con.executemany(
+        "INSERT INTO histogram (upload_id, component_id, quantity, period_start, "
+        "period_end, n_pressure, n_speed, pressure_bands, speed_bands, hours, "
+        "total_hours, mean_speed_rpm, content_sha256) "
+        "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
+        hists,
+    )
+    n = len(hists)
+    ups.clear()
+    hists.clear()
+    return n
+
+
+def _build_readings(con, by_unit: dict, file_id: int, days: int, rng) -> int:  # noqa: ANN001
+    rows = []
+    for cids in by_unit.values():
+        for cid in cids:
+            for m, d in enumerate(range(15, days, 30)):
+                q = 1.2 + 0.01 * m + rng.normal(0, 0.03)
+                rows.append(
+                    (
+                        file_id,
+                        cid,
+                        _ts(START + timedelta(days=d, hours=10)),
+                        500.0 + 10.0 * d,
+                        q,
+                        250.0,
+                        50.0,
+                        "18/16/13" if m % 6 == 0 else None,
+                    )
+                )
+    con.executemany(
+        "INSERT INTO reading (file_id, component_id, taken_at, hour_meter, "
+        "case_drain_lpm, test_pressure_bar, oil_temp_c, iso4406) "
+        "VALUES (?,?,?,?,?,?,?,?)",
+        rows,
+    )
+    return len(rows)
+
+
+def stage_recompute(args: argparse.Namespace) -> dict:
+    from monitor import service, store
+
+    engine = store.make_engine(f"sqlite:///{args.db}")
+    t = time.perf_counter()
+    n = service.recompute(engine)
+    dt = time.perf_counter() - t
+    engine.dispose()
+    return {"ledger_rows": n, "recompute_s": dt, "histograms_per_s": n / dt, "peak_mb": _peak_mb()}
+
+
+def _as_of(args: argparse.Namespace) -> date:
+    return (START + timedelta(days=int(round(365 * args.years)) + 1)).date()
+
+
+def stage_rank(args: argparse.Namespace) -> dict:
+    from monitor import service, store
+
+    engine = store.make_engine(f"sqlite:///{args.db}")
+    times = []
+    for _ in range(3):
+        t = time.perf_counter()
+        df = service.fleet_status(engine, _as_of(args))
+        recs = service.rank_records(df)
+        times.append(time.perf_counter() - t)
+    engine.dispose()
+    with_wear = int(df["remaining_wear_h"].notna().sum())
+    return {
+        "components": len(recs),
+        "with_wear_estimate": with_wear,
+        "rank_s": min(times),
+        "rank_s_all": times,
+        "peak_mb": _peak_mb(),
+    }
+
+
+def stage_dashboard(args: argparse.Namespace) -> dict:
+    """Hook for the dashboard's fleet page (added by the dashboard code when it exists)."""
+    from monitor import store
+
+    try:
+        from dashboards.bench_hook import render_fleet_page  # type: ignore[import-not-found]
+    except ImportError:
+        return {"skipped": "dashboards.bench_hook.render_fleet_page not available"}
+    engine = store.make_engine(f"sqlite:///{args.db}")
+    t = time.perf_counter()
+    render_fleet_page(engine)
+    return {"render_s": time.perf_counter() - t, "peak_mb": _peak_mb()}
+
+
+STAGES = {
+    "ingest": stage_ingest,
+    "build": stage_build,
+    "recompute": stage_recompute,
+    "rank": stage_rank,
+    "dashboard": stage_dashboard,
+}
+
+
+def run_stage(name: str, args: argparse.Namespace) -> dict:
+    cmd = [
+        sys.executable,
+        __file__,
+        "--stage",
+        name,
+        "--units",
+        str(args.units),
+        "--years",
+        str(args.years),
+        "--ingest-units",
+        str(args.ingest_units),
+        "--db",
+        args.db,
+    ]
+    t = time.perf_counter()
+    out = subprocess.run(cmd, capture_output=True, text=True, check=False)
+    if out.returncode != 0:
+        return {"error": out.stderr.strip().splitlines()[-1] if out.stderr else "failed"}
+    res = json.loads(out.stdout.strip().splitlines()[-1])
+    res["wall_s"] = time.perf_counter() - t
+    return res
+
+
+def machine() -> dict:
+    import os
+
+    mem = None
+    try:
+        with open("/proc/meminfo") as f:  # noqa: PTH123
+            mem = f.readline().split()[1]
+    except OSError:
+        pass
+    cpu = platform.processor() or platform.machine()
+    try:
+        with open("/proc/cpuinfo") as f:  # noqa: PTH123
+            cpu = next(ln.split(":", 1)[1].strip() for ln in f if ln.startswith("model name"))
+    except (OSError, StopIteration):
+        pass
+    return {
+        "cpu": cpu,
+        "cores": os.cpu_count(),
+        "mem_gb": round(int(mem) / 2**20, 1) if mem else None,
+        "python": platform.python_version(),
+        "sqlite": sqlite3.sqlite_version,
+        "pandas": pd.__version__,
+        "numpy": np.__version__,
+        "os": platform.platform(),
+    }
+
+
+def main() -> None:
+    p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    p.add_argument("--units", type=int, default=2000)
+    p.add_argument("--years", type=float, default=3.0)
+    p.add_argument("--ingest-units", type=int, default=200)
+    p.add_argument("--db", default=str(Path(tempfile.gettempdir()) / "drivespan-bench.db"))
+    p.add_argument("--out", help="write the results as JSON here")
+    p.add_argument("--stage", choices=sorted(STAGES), help=argparse.SUPPRESS)
+    p.add_argument("--only", nargs="*", choices=sorted(STAGES), help="run only these stages")
+    args = p.parse_args()
+    if args.stage:
+        print(json.dumps(STAGES[args.stage](args)))
+        return
+    results = {
+        "machine": machine(),
+        "units": args.units,
+        "years": args.years,
+        "ingest_units": args.ingest_units,
+        "when": datetime.now(UTC).isoformat(),
+    }
+    for name in args.only or ["ingest", "build", "recompute", "rank", "dashboard"]:
+        print(f"running {name} ...", file=sys.stderr, flush=True)
+        results[name] = run_stage(name, args)
+        print(f"  {json.dumps(results[name])}", file=sys.stderr, flush=True)
+    text = json.dumps(results, indent=2)
+    print(text)
+    if args.out:
+        Path(args.out).write_text(text + "\n", encoding="utf-8")
+
+
+if __name__ == "__main__":
+    main()
