@@ -91,17 +91,23 @@ def band_probabilities(
     return probs / probs.sum()
 
 
-def damage_per_hour(model: dict, speed_ratio: np.ndarray | float) -> np.ndarray:
+def damage_per_hour(
+    model: dict, speed_ratio: np.ndarray | float, inverse_factor: np.ndarray | float = 1.0
+) -> np.ndarray:
     """Miner damage of one hour in each band [1/h] at speed ``n / n_R`` [-].
+
+    ``inverse_factor`` is 1 / a_oil per band (or per day and band) [-], see
+    :mod:`demo_fleet.oil_samples`; 1 leaves the oil condition out.
 
     Notes
     -----
-    ``dp_i = max(0, p_mid_i - p_L)``; ``1 / L_i = (dp_i / dp_R)^p (n_i / n_R) / L_R``
+    ``dp_i = max(0, p_mid_i - p_L)``; ``1 / L_i = (dp_i / dp_R)^p (n_i / n_R) / (a_oil L_R)``
     (life model v1, DESIGN.md; ISO 281 with bearing load proportional to pressure).
     """
     dp = np.maximum(0.0, MID_BAR - model["low_side_bar"])
     rel = (dp / model["rated_dp_bar"]) ** model["life_exponent"]
-    return np.multiply.outer(np.asarray(speed_ratio, dtype=float), rel) / model["rated_l10_h"]
+    per_hour = np.multiply.outer(np.asarray(speed_ratio, dtype=float), rel) / model["rated_l10_h"]
+    return per_hour * inverse_factor
 
 
 def calibrate_scale(
@@ -110,13 +116,15 @@ def calibrate_scale(
     model: dict,
     speed_ratio: float,
     target_life_h: float,
+    inverse_factor: np.ndarray | float = 1.0,
 ) -> float:
     """Stretch factor of the working pressures [-] that gives ``target_life_h`` [h].
 
+    ``inverse_factor`` is the expected 1 / a_oil per band [-] (1: oil left out).
     Solved with Brent's method on the expected Miner damage rate; clamped to 0.4-1.6
     when the target cannot be reached inside that range.
     """
-    weights = damage_per_hour(model, speed_ratio)
+    weights = damage_per_hour(model, speed_ratio, inverse_factor)
 
     def excess(scale: float) -> float:
         rate = band_probabilities(working, scale, limit_share, model) @ weights

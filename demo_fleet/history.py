@@ -9,12 +9,17 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.optimize import brentq
+from scipy.stats import theilslopes
 
-from demo_fleet import duty
+from demo_fleet import duty, oil_samples
 from demo_fleet.scenario import (
+    BEARING_ROLE_LIFE_H,
+    DUE_ROLES,
     MODELS_BY_NAME,
     NEAR_END_POSITION,
     REBUILT_RECENTLY_POSITION,
+    DueRole,
     UnitPlan,
 )
 
@@ -28,13 +33,21 @@ REBUILD_WEAR = 0.95
 COMPANION_DAMAGE = 0.6
 """A second loop past this consumed life is rebuilt in the same downtime [-]."""
 WEAR_EXPONENT = 1.3
+"""Normalised leakage grows as new * offset * (1 + w ** WEAR_EXPONENT) [-]."""
 NEAR_END_CONSUMED = 0.935
 """Bearing life the near-end conveyor has consumed since its last rebuild [-]."""
 NEAR_END_TARGET_LIFE_H = 9000.0
 """Expected bearing life under its duty of the near-end conveyor pump [h]."""
+CONTAMINATED_REMAINING_H = (700.0, 1250.0)
+"""Hours the contaminated unit's loops have left on their case-drain trend [h]."""
 SILENT_DAYS = 42
 """Days before the end date from which the silent unit's uploads stop arriving."""
-"""Normalised leakage grows as new * offset * (1 + w ** WEAR_EXPONENT) [-]."""
+BACKLOG_GAP_DAYS = 90
+"""A unit with due roles gets no automatic rebuild in the days before its last
+role rebuild [d], so its service history does not show two rebuilds in a row."""
+RATE_WINDOW_H = 500.0
+"""Operating hours over which a due role's recent damage rate is taken [h] (the
+ledger's default rate window, DESIGN.md)."""
 
 
 @dataclass
@@ -65,6 +78,10 @@ class Event:
     day: int
     kind: str
     hour: int
+    check_day: int = -1
+    """Day of the case-drain check a few days after the rebuild (-1: none)."""
+    check_noise: float = 1.0
+    """Measurement error of that check's reading of this position [-]."""
 
 
 @dataclass
@@ -78,21 +95,39 @@ class UnitHistory:
     events: list[Event]
     upload: np.ndarray
     contamination: tuple[int, int] | None = None
+    visits: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    codes: list[str] = field(default_factory=list)
+    visit_noise: dict[str, np.ndarray] = field(default_factory=dict)
 
     def meter_start_tenths(self) -> np.ndarray:
         """Hour meter at the start of each day [0.1 h]."""
         return self.meter0_tenths + np.concatenate(([0], np.cumsum(self.tenths)[:-1]))
 
 
-def _damage(pos: PositionHistory) -> np.ndarray:
-    """Miner damage of each day [-] with life model v1 (band midpoints)."""
+def _damage(pos: PositionHistory, hist: UnitHistory) -> np.ndarray:
+    """Miner damage of each day [-] with life model v1 (band midpoints).
+
+    Pressure spectra carry the ISO 281 oil-condition factor of the latest oil sample
+    (:mod:`demo_fleet.oil_samples`); pressure x speed matrices are logged only by the
+    motors, whose model has no bearing data (factor 1).
+    """
     model = pos.model
     hours = pos.counts / 100.0
     if pos.quantity == "pressure":
-        per_hour = duty.damage_per_hour(model, pos.speed_rpm / model["rated_speed_rpm"])
+        ec = np.full(hours.shape[0], np.nan)
+        if "bearing" in model:
+            pitch = model["bearing"]["pitch_diameter_mm"]
+            ec = oil_samples.daily_contamination_ec(hist.visits, hist.codes, ec.size, pitch)
+        a_oil = oil_samples.oil_life_factor(model, pos.speed_rpm, ec)
+        ratio = pos.speed_rpm / model["rated_speed_rpm"]
+        per_hour = duty.damage_per_hour(model, ratio, 1.0 / a_oil)
         return np.einsum("dk,dk->d", hours, per_hour)
     per_hour = duty.damage_per_hour(model, duty.SPEED_MID_RPM / model["rated_speed_rpm"])
     return np.einsum("dks,sk->d", hours, per_hour)
+
+
+def _roles(plan: UnitPlan) -> tuple[DueRole, ...]:
+    return DUE_ROLES.get(plan.tag, ())
 
 
 def _spectra(plan: UnitPlan, rng: np.random.Generator, tenths: np.ndarray) -> list:
@@ -119,11 +154,15 @@ def _spectra(plan: UnitPlan, rng: np.random.Generator, tenths: np.ndarray) -> li
             share = rng.uniform(lo_share, hi_share)
             if plan.story == "stalling_loader":
                 share = duty.STALL_SHARE
-            ratio = float(np.mean(speed)) / model["rated_speed_rpm"]
+            mean_speed = float(np.mean(speed))
+            ratio = mean_speed / model["rated_speed_rpm"]
             target = rng.uniform(lo_life, hi_life)
             if plan.story == "near_end_conveyor" and position == NEAR_END_POSITION:
                 target = NEAR_END_TARGET_LIFE_H
-            scale = duty.calibrate_scale(working, share, model, ratio, target)
+            if any(r.position == position and r.mode == "bearing" for r in _roles(plan)):
+                target = BEARING_ROLE_LIFE_H
+            inverse = oil_samples.expected_inverse_factor(model, mean_speed)
+            scale = duty.calibrate_scale(working, share, model, ratio, target, inverse)
             probs = duty.band_probabilities(working, scale, share, model)
             loop_counts = duty.daily_band_hours(rng, probs, tenths * 10)
         out.append(
@@ -169,7 +208,9 @@ def _rebuild(
     kind = "replacement" if rng.random() < 0.35 else "rebuild"
     if kind == "replacement":
         pos.serial = f"S{int(rng.integers(100000, 999999))}"
-    hist.events.append(Event(pos.position, day, kind, int(rng.integers(10, 16))))
+    hour, check = int(rng.integers(10, 16)), day + int(rng.integers(2, 6))
+    noise = 1.0 + float(rng.normal(0.0, oil_samples.NOISE_SD))
+    hist.events.append(Event(pos.position, day, kind, hour, check, noise))
     pos.offsets.append(float(rng.uniform(0.9, 1.15)))
     life_start[pos.position] = day
 
@@ -243,13 +284,113 @@ def _story_setup(hist: UnitHistory, n: int) -> tuple[int, list[tuple[int, str]]]
     if story == "rebuilt_recently":
         return max(0, n - 300), [(max(0, n - 30), REBUILT_RECENTLY_POSITION)]
     if story == "contaminated":
-        rebuilt = max(0, n - min(600, int(0.6 * n)))
-        onset = max(rebuilt + 1, n - min(420, int(0.45 * n)))
-        hist.contamination = (onset, min(n, onset + 56))
+        rebuilt, (onset, _) = _contamination_days(n)
         for pos in hist.positions:
             pos.wear_mult[onset:] = 6.0
         return 0, [(rebuilt, p.position) for p in hist.positions]
     return n, []
+
+
+def _contamination_days(n: int) -> tuple[int, tuple[int, int]]:
+    """Day of the contaminated unit's rebuild and its (first, last + 1) dirty days."""
+    rebuilt = max(0, n - min(600, int(0.6 * n)))
+    onset = max(rebuilt + 1, n - min(420, int(0.45 * n)))
+    return rebuilt, (onset, min(n, onset + 56))
+
+
+def recent_damage_rate(pos: PositionHistory, tenths: np.ndarray) -> float:
+    """Damage per operating hour over the last :data:`RATE_WINDOW_H` hours [1/h]."""
+    hours = np.cumsum(tenths[::-1]) / 10.0
+    k = int(np.searchsorted(hours, RATE_WINDOW_H)) + 1
+    total = hours[min(k, hours.size) - 1]
+    return float(pos.damage[::-1][:k].sum() / total) if total > 0 else 0.0
+
+
+def _role_setup(
+    hist: UnitHistory, n: int, auto_until: int, forced: list[tuple[int, str]]
+) -> tuple[int, list[tuple[int, str]]]:
+    """Rebuild days and wear lives of the unit's due roles (see scenario.DueRole)."""
+    for role in _roles(hist.plan):
+        pos = next(p for p in hist.positions if p.position == role.position)
+        if role.mode == "bearing":
+            rate = recent_damage_rate(pos, hist.tenths)
+            day = near_end_rebuild_day(pos, 1.0 - role.remaining_h * rate)
+            start = 0 if day is None else day
+        else:
+            day = None if role.since_days is None else max(1, n - role.since_days)
+            start = 0 if day is None else day
+            calibrate_wear_life(hist, pos, start, role.remaining_h)
+        if day is not None:
+            forced.append((day, role.position))
+        auto_until = min(auto_until, max(0, start - BACKLOG_GAP_DAYS))
+    return auto_until, sorted(forced)
+
+
+def _wear_points(hist: UnitHistory, pos: PositionHistory, start: int):
+    """Hours since ``start``, wear exposure [h] and measurement error [-] at the visits
+    of the current life, and the hours from ``start`` to the end [h]."""
+    keep = hist.visits > start if start > 0 else np.ones(hist.visits.size, dtype=bool)
+    in_life, noise = hist.visits[keep], hist.visit_noise[pos.position][keep]
+    checks = [
+        (e.check_day, e.check_noise)
+        for e in hist.events
+        if e.position == pos.position and e.day == start and 0 <= e.check_day < hist.tenths.size
+    ]
+    for day, err in checks:
+        if day not in in_life:
+            in_life, noise = np.append(in_life, day), np.append(noise, err)
+    tenths = hist.tenths.copy()
+    if start > 0:
+        tenths[start] = 0  # the rebuild day is downtime
+    hours = np.concatenate(([0.0], np.cumsum(tenths / 10.0)))
+    exposure = np.concatenate(([0.0], np.cumsum(tenths / 10.0 * pos.wear_mult)))
+    return (
+        hours[in_life] - hours[start],
+        exposure[in_life] - exposure[start],
+        noise,
+        hours[-1] - hours[start],
+    )
+
+
+def trend_remaining_h(
+    x_h: np.ndarray,
+    exposure_h: np.ndarray,
+    noise: np.ndarray,
+    now_h: float,
+    wear_life_h: float,
+    limit: float,
+) -> float:
+    """Hours to the limit [h] of a Theil-Sen line through the normalised readings.
+
+    Readings are ``(1 + (exposure / wear_life) ** WEAR_EXPONENT) * noise`` (as-new = 1,
+    limit in the same ratio); the line is evaluated at ``now_h`` as drivespan does
+    (DESIGN.md, "Case drain").
+    """
+    y = (1.0 + (exposure_h / wear_life_h) ** WEAR_EXPONENT) * noise
+    slope, intercept, _, _ = theilslopes(y, x_h)
+    return (limit - (intercept + slope * now_h)) / slope if slope > 0 else np.inf
+
+
+def calibrate_wear_life(
+    hist: UnitHistory, pos: PositionHistory, start: int, remaining_h: float
+) -> None:
+    """Set the wear life [h] so the case-drain trend at the end leaves ``remaining_h``.
+
+    The current life's as-new offset is taken as 1 (set after the rebuilds are
+    scheduled, see :func:`simulate_unit`); Brent's method on log(wear life).
+    """
+    x, exposure, noise, now = _wear_points(hist, pos, start)
+    limit = pos.model["case_drain"]["limit_factor"]
+    if x.size < 3:
+        return
+
+    def gap(log_life: float) -> float:
+        life = float(np.exp(log_life))
+        return trend_remaining_h(x, exposure, noise, now, life, limit) - remaining_h
+
+    lo, hi = np.log(50.0), np.log(1e7)
+    if gap(lo) * gap(hi) < 0:  # else the target cannot be met: keep the drawn life
+        pos.wear_life_h = float(np.exp(brentq(gap, lo, hi, xtol=1e-6)))
 
 
 def simulate_unit(
@@ -265,26 +406,48 @@ def simulate_unit(
         _ensure_recent(tenths, days)
     positions = _spectra(plan, rng, tenths)
     hist = UnitHistory(plan, tenths, meter0_tenths, positions, [], np.ones(n, dtype=bool))
+    if plan.story == "contaminated":
+        hist.contamination = _contamination_days(n)[1]
+    oil_rng = np.random.default_rng([seed, 40_000 + plan.index])
+    hist.visits = oil_samples.visit_days(oil_rng, days)
+    hist.codes = oil_samples.sample_codes(oil_rng, hist.visits, hist.contamination)
+    hist.visit_noise = {
+        p.position: 1.0 + oil_rng.normal(0.0, oil_samples.NOISE_SD, hist.visits.size)
+        for p in positions
+    }
     for pos in positions:
-        pos.damage = _damage(pos)
+        pos.damage = _damage(pos, hist)
         pos.wear_mult = np.ones(n)
         pos.offsets = [float(rng.uniform(0.9, 1.15))]
     auto_until, forced = _story_setup(hist, n)
+    auto_until, forced = _role_setup(hist, n, auto_until, forced)
     schedule_rebuilds(hist, rng, auto_until, forced)
-    if plan.story == "contaminated":
-        _calibrate_contaminated(hist)
+    _finish_wear_lives(hist)
     if plan.story == "silent":
         hist.upload[max(0, n - SILENT_DAYS) :] = False
     return hist
 
 
-def _calibrate_contaminated(hist: UnitHistory) -> None:
-    """Set the wear life so the normalised drain ends at 96 % / 92 % of the limit."""
-    for pos, end_share in zip(hist.positions, (0.96, 0.92), strict=False):
-        pos.offsets = [1.0] * len(pos.offsets)
-        start = max((e.day for e in hist.events if e.position == pos.position), default=0)
-        target_w = (end_share * pos.model["case_drain"]["limit_factor"] - 1.0) ** (
-            1.0 / WEAR_EXPONENT
+def _life_start(hist: UnitHistory, position: str) -> int:
+    return max((e.day for e in hist.events if e.position == position), default=0)
+
+
+def _finish_wear_lives(hist: UnitHistory) -> None:
+    """Calibrate the wear lives again now that the rebuilds and their checks are known.
+
+    Wear roles keep their target; the contaminated unit's loops end about
+    :data:`CONTAMINATED_REMAINING_H` hours from their case-drain limit. The current
+    life's as-new offset is 1, as the calibration assumes.
+    """
+    targets = {r.position: r.remaining_h for r in _roles(hist.plan) if r.mode == "wear"}
+    if hist.plan.story == "contaminated":
+        targets = dict(
+            zip((p.position for p in hist.positions), CONTAMINATED_REMAINING_H, strict=True)
         )
-        exposure = float(np.sum(hist.tenths[start:] / 10.0 * pos.wear_mult[start:]))
-        pos.wear_life_h = exposure / target_w
+        for pos in hist.positions:
+            pos.offsets = [1.0] * len(pos.offsets)
+    for pos in hist.positions:
+        if pos.position in targets:
+            pos.offsets[-1] = 1.0
+            start = _life_start(hist, pos.position)
+            calibrate_wear_life(hist, pos, start, targets[pos.position])

@@ -11,7 +11,9 @@ from __future__ import annotations
 import numpy as np
 
 from demo_fleet.history import WEAR_EXPONENT, PositionHistory, UnitHistory
-from demo_fleet.scenario import OIL_NU40_MM2S, OIL_NU100_MM2S
+from demo_fleet.oil_samples import NOISE_SD, walther_viscosity
+
+__all__ = ["READING_COLUMNS", "true_leakage_ratio", "unit_readings", "walther_viscosity"]
 
 READING_COLUMNS = (
     "unit",
@@ -23,59 +25,6 @@ READING_COLUMNS = (
     "oil_temp_c",
     "iso4406",
 )
-
-NOISE_SD = 0.03
-"""Relative standard deviation of a case-drain measurement [-] (common practice, no source)."""
-CLEAN_CODE = (18, 16, 13)
-"""ISO 4406 code of the fleet oil in normal service (common practice, no source)."""
-DIRTY_CODE = (22, 20, 17)
-"""ISO 4406 code during the contamination episode (invented)."""
-
-
-def walther_viscosity(
-    temp_c: np.ndarray | float,
-    nu_a: float = OIL_NU40_MM2S,
-    nu_b: float = OIL_NU100_MM2S,
-    t_a_c: float = 40.0,
-    t_b_c: float = 100.0,
-) -> np.ndarray:
-    """Kinematic viscosity [mm2/s] at ``temp_c`` [degC] on the two-point ASTM D341 line.
-
-    Parameters
-    ----------
-    temp_c : array_like
-        Oil temperature [degC].
-    nu_a, nu_b : float
-        Viscosities at the two reference temperatures [mm2/s].
-    t_a_c, t_b_c : float
-        The two reference temperatures [degC].
-
-    Returns
-    -------
-    numpy.ndarray
-        Kinematic viscosity [mm2/s].
-
-    Notes
-    -----
-    ``log10(log10(nu + 0.7)) = A - B log10(T)``, T in kelvin (ASTM D341, Walther).
-    """
-    t_a, t_b = t_a_c + 273.15, t_b_c + 273.15
-    y_a, y_b = np.log10(np.log10(nu_a + 0.7)), np.log10(np.log10(nu_b + 0.7))
-    slope = (y_a - y_b) / (np.log10(t_b) - np.log10(t_a))
-    intercept = y_a + slope * np.log10(t_a)
-    y = intercept - slope * np.log10(np.asarray(temp_c, dtype=float) + 273.15)
-    return 10.0 ** (10.0**y) - 0.7
-
-
-def visit_days(rng: np.random.Generator, days: np.ndarray) -> np.ndarray:
-    """Index of one weekday service visit per calendar month of the window."""
-    months = np.unique(days.astype("datetime64[M]"))
-    offset = int(rng.integers(0, 20))
-    first = months.astype("datetime64[D]") + offset
-    weekday = (first.astype(np.int64) + 3) % 7
-    first = first + np.where(weekday >= 5, 7 - weekday, 0)
-    idx = (first - days[0]).astype(np.int64)
-    return idx[(idx >= 0) & (idx < days.size)]
 
 
 def _life_index(hist: UnitHistory, pos: PositionHistory, day_idx: np.ndarray) -> np.ndarray:
@@ -95,23 +44,15 @@ def true_leakage_ratio(hist: UnitHistory, pos: PositionHistory, day_idx: np.ndar
     return offsets * (1.0 + w**WEAR_EXPONENT)
 
 
-def _iso_codes(hist: UnitHistory, rng: np.random.Generator, day_idx: np.ndarray) -> np.ndarray:
-    """ISO 4406 code of each visit's oil sample (one sample serves both loops)."""
-    base = np.tile(np.array(CLEAN_CODE), (day_idx.size, 1))
-    if hist.contamination is not None:
-        on, off = hist.contamination
-        dirty = (day_idx >= on) & (day_idx < off)
-        after = (day_idx >= off) & (day_idx < off + 60)
-        base[dirty] = DIRTY_CODE
-        base[after] = np.array(DIRTY_CODE) - 2
-    codes = base + rng.choice([-1, 0, 0, 0, 1], size=(day_idx.size, 1))
-    return np.array([f"{a}/{b}/{c}" for a, b, c in codes])
-
-
 def unit_readings(hist: UnitHistory, rng: np.random.Generator, days: np.ndarray) -> list[tuple]:
-    """Rows of the readings CSV for one unit (monthly, plus a check after each rebuild)."""
-    visits = visit_days(rng, days)
-    after_rebuild = [e.day + int(rng.integers(2, 6)) for e in hist.events]
+    """Rows of the readings CSV for one unit (monthly, plus a check after each rebuild).
+
+    The monthly visits, their oil samples and their case-drain measurement errors were
+    drawn with the unit's history; the check a few days after a rebuild measures the
+    case drain only (no oil sample).
+    """
+    visits = hist.visits
+    after_rebuild = [e.check_day for e in hist.events]
     day_all = np.unique(np.concatenate((visits, np.array(after_rebuild, dtype=int))))
     day_all = day_all[day_all < days.size]
     minutes = rng.integers(0, 50, day_all.size)
@@ -120,7 +61,8 @@ def unit_readings(hist: UnitHistory, rng: np.random.Generator, days: np.ndarray)
         for d, m in zip(np.datetime_as_string(days[day_all]), minutes, strict=True)
     ]
     meter = hist.meter_start_tenths()[day_all] / 10.0
-    codes = _iso_codes(hist, rng, day_all)
+    code_of = dict(zip(visits.tolist(), hist.codes, strict=True))
+    codes = [code_of.get(int(d), "") for d in day_all]
     rows: list[tuple] = []
     for pos in hist.positions:
         cd = pos.model["case_drain"]
@@ -129,6 +71,11 @@ def unit_readings(hist: UnitHistory, rng: np.random.Generator, days: np.ndarray)
         temp = np.round(rng.uniform(40.0, 65.0, day_all.size), 1)
         nu_ratio = walther_viscosity(cd["test_temp_c"]) / walther_viscosity(temp)
         noise = 1.0 + rng.normal(0.0, NOISE_SD, day_all.size)
+        at_visit = np.isin(day_all, visits)
+        noise[at_visit] = hist.visit_noise[pos.position][np.isin(visits, day_all)]
+        for e in hist.events:
+            if e.position == pos.position and not at_visit[day_all == e.check_day].any():
+                noise[day_all == e.check_day] = e.check_noise
         q = q_star * dp / cd["test_dp_bar"] * nu_ratio * noise
         for i in range(day_all.size):
             rows.append(

@@ -230,6 +230,55 @@ NEAR_END_POSITION = "pump"
 
 
 @dataclass(frozen=True)
+class DueRole:
+    """A component the shop has let run on: where it should stand at the end date.
+
+    ``mode`` "bearing": the last rebuild is placed so that the bearing life left at the
+    end, at the unit's recent damage rate, is ``remaining_h`` [h] (negative: past its
+    end of life). ``mode`` "wear": the component's wear life is set so that a Theil-Sen
+    line through its case-drain readings since the last rebuild reaches the limit
+    ``remaining_h`` operating hours after the end date (negative: already past it); the
+    last rebuild was ``since_days`` before the end date, or at the start of monitoring
+    when None. No other rebuild of the unit is done after the earliest of these lives
+    began (the shop's backlog).
+    """
+
+    position: str
+    mode: str
+    remaining_h: float
+    since_days: int | None = None
+
+
+BEARING_ROLE_LIFE_H = 9500.0
+"""Expected bearing life under its duty of a component with a bearing due role [h]
+(a hard-worked drive, so that its life can run out inside three years of history)."""
+
+DUE_ROLES: dict[str, tuple[DueRole, ...]] = {
+    # Greyfell Quarry: loaders and a dozer whose case drains have been climbing
+    "GQ-02": (DueRole("left", "wear", -40.0), DueRole("right", "wear", 150.0)),
+    "GQ-04": (DueRole("left", "wear", 420.0), DueRole("right", "wear", 640.0)),
+    "GQ-13": (DueRole("right", "wear", 120.0),),
+    "GQ-17": (DueRole("left", "wear", 800.0, since_days=520),),
+    # Sprucewater Sawmill: hard-worked conveyor and chain pumps near the end of their
+    # bearing life, a worn infeed pump and a worn conveyor motor
+    "SW-01": (DueRole("pump", "bearing", 760.0), DueRole("motor", "wear", 880.0, 430)),
+    "SW-05": (DueRole("pump", "wear", 200.0, since_days=400),),
+    "SW-11": (DueRole("pump", "bearing", 900.0),),
+    "SW-14": (DueRole("pump", "bearing", -150.0),),
+    # Tenterhook Hire Yard: machines back from long hires with worn drives
+    "TH-03": (DueRole("left", "wear", 90.0), DueRole("right", "wear", 230.0)),
+    "TH-06": (DueRole("right", "wear", 550.0, since_days=600),),
+    "TH-15": (DueRole("left", "wear", 180.0),),
+    "TH-20": (DueRole("left", "wear", 380.0), DueRole("right", "wear", 720.0)),
+    "TH-25": (DueRole("drive", "wear", 950.0, since_days=700),),
+}
+"""Unit tag -> components that fall due around the end date, so the demo has something
+to plan: about two at or past their end of life, six due soon and a dozen to plan ahead
+(with the story units), on all three sites, several as both loops of one machine.
+Invented, like everything in the scenario."""
+
+
+@dataclass(frozen=True)
 class UnitPlan:
     """One unit of the roster: its tag, site, machine type and index in the full fleet."""
 
