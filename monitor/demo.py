@@ -77,6 +77,8 @@ def build_demo(
         results.append(service.upload(engine, path.read_bytes(), path.name))
         if progress is not None:
             progress(path.name, i, len(files))
+    broken = Path(fleet.broken_path)  # a faulty export, there to show a rejection
+    results.append(service.upload(engine, broken.read_bytes(), broken.name))
     engine.dispose()
     return DemoResult(
         folder.resolve(), db_url, end + timedelta(days=1), tuple(results), dict(fleet.stories)
