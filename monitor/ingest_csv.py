@@ -176,18 +176,23 @@ def _read_frame(
         )
         return None
     except pd.errors.ParserError as e:
-        m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
-        if m:
-            probs.add(
-                int(m.group(2)),
-                None,
-                None,
-                f"line {m.group(2)} has {m.group(3)} fields but the header has {m.group(1)}: "
-                f"every row needs one value per column, separated by `{sep}`",
-            )
-        else:
-            probs.add(None, None, None, f"cannot read the CSV: {e}")
+        _ragged(e, sep, probs)
         return None
+
+
+def _ragged(e: pd.errors.ParserError, sep: str, probs: ProblemList) -> None:
+    """The problem for a row with the wrong number of fields (or any other read error)."""
+    m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
+    if m:
+        probs.add(
+            int(m.group(2)),
+            None,
+            None,
+            f"line {m.group(2)} has {m.group(3)} fields but the header has {m.group(1)}: "
+            f"every row needs one value per column, separated by `{sep}`",
+        )
+    else:
+        probs.add(None, None, None, f"cannot read the CSV: {e}")
 
 
 def _read_typed(data: bytes, kinds: dict, floats: dict, kw: dict) -> pd.DataFrame:
