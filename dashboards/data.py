@@ -106,6 +106,41 @@ class PlanOptions:
         return cls(*key)
 
 
+def plan_options(url: str | None) -> PlanOptions:
+    """The shop's stored plan settings (monitor.service_plan) as page options."""
+    from monitor import service_plan
+
+    s = service_plan.get_plan_settings(engine(url))
+    stock = tuple(sorted((str(k), int(v)) for k, v in (s["exchange_stock"] or {}).items()))
+    ta = s.get("turnaround_days")
+    if isinstance(ta, dict):
+        turnaround = tuple(sorted((str(k), float(v)) for k, v in ta.items()))
+    else:
+        turnaround = tuple((m, float(ta if ta is not None else 21.0)) for m, _ in stock)
+    return PlanOptions(
+        horizon_weeks=int(s["horizon_weeks"]),
+        capacity_per_week=int(s["capacity_per_week"]),
+        site_capacity=tuple(sorted((str(k), int(v)) for k, v in s["site_capacity"].items())),
+        exchange_stock=stock,
+        turnaround_days=turnaround,
+        pair_within_h=s["pair_within_h"],
+    )
+
+
+def save_plan_options(url: str | None, opts: PlanOptions) -> None:
+    """Store page options as the shop's plan settings (raises DomainError if rejected)."""
+    from monitor import service_plan
+
+    service_plan.save_plan_settings(engine(url), {
+        "horizon_weeks": opts.horizon_weeks,
+        "capacity_per_week": opts.capacity_per_week,
+        "site_capacity": dict(opts.site_capacity),
+        "exchange_stock": dict(opts.exchange_stock),
+        "turnaround_days": dict(opts.turnaround_days) or 21.0,
+        "pair_within_h": opts.pair_within_h,
+    })
+
+
 def clear() -> None:
     """Forget every cached frame (after an upload or a settings change)."""
     for fn in (fleet, unit_report, settings, registry_text):

@@ -5,11 +5,13 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboards import charts, data, plan_view, ui
-from monitor import exports, planning
+from monitor import exports, planning, service
 
 ctx = ui.context()
 fleet = data.fleet(ctx.url, ctx.as_of, ctx.reliability_pct)
-opts: data.PlanOptions = st.session_state.setdefault("plan_options", data.PlanOptions())
+if "plan_options" not in st.session_state:
+    st.session_state.plan_options = data.plan_options(ctx.url)
+opts: data.PlanOptions = st.session_state.plan_options
 
 st.title("Rebuild plan")
 if fleet.empty:
@@ -40,6 +42,11 @@ with st.expander("Shop capacity, exchange stock and pairing", expanded=False):
                 st.error(f"Not planned: {err}")
             else:
                 st.session_state.plan_options = opts = new
+                try:
+                    data.save_plan_options(ctx.url, new)
+                    st.success("Saved as the shop's plan settings (also used by drivespan plan).")
+                except service.DomainError as err:
+                    st.error(f"Not saved: {err}")
 
 try:
     plan = data.plan(ctx.url, ctx.as_of, ctx.reliability_pct, opts)
