@@ -25,12 +25,18 @@ PURE = [
 ]
 FORBIDDEN_EVERYWHERE_PURE = {"sqlalchemy", "streamlit", "click", "alembic", "psycopg"}
 NO_PANDAS = {"bearings", "oil", "spectrum", "wear", "relief", "hydraulics", "lifecycle"}
+INGEST = {
+    p.stem: {"sqlalchemy", "streamlit", "click"}
+    for p in (Path(__file__).resolve().parent.parent / "monitor").glob("ingest*.py")
+}
 NO_SQL = {
+    **INGEST,
     "cli": {"sqlalchemy"},
-    "ingest": {"sqlalchemy", "streamlit", "click"},
     "registry": {"sqlalchemy", "streamlit", "click"},
     "units": {"sqlalchemy", "streamlit", "click"},
     "service": {"streamlit", "click"},
+    "service_plan": {"streamlit", "click"},
+    "demo": {"streamlit", "sqlalchemy"},
     "store": {"streamlit", "click"},
 }
 
