@@ -209,6 +209,8 @@ def _rebuild(
     if kind == "replacement":
         pos.serial = f"S{int(rng.integers(100000, 999999))}"
     hour, check = int(rng.integers(10, 16)), day + int(rng.integers(2, 6))
+    same_day = [e.check_day for e in hist.events if e.day == day]
+    check = same_day[0] if same_day else check  # one check visit for the unit
     noise = 1.0 + float(rng.normal(0.0, oil_samples.NOISE_SD))
     hist.events.append(Event(pos.position, day, kind, hour, check, noise))
     pos.offsets.append(float(rng.uniform(0.9, 1.15)))
