@@ -88,14 +88,21 @@ def _point_ids(as_of: datetime, utilisation_days: float, component_ids: list[int
     return q.subquery("pts")
 
 
+CUM_TOLERANCE_H = 1e-9
+"""Rounding allowance when comparing running totals of hours [h]."""
+
+
 def _window_id(pts, now, rate_window_h: float):  # noqa: ANN001, ANN202
-    """Correlated sub-select: last row whose cum_hours <= now.cum_hours - window."""
+    """Correlated sub-select: last row whose cum_hours <= now.cum_hours - window.
+
+    Running totals are sums of floats: a window met exactly (to rounding) counts as met.
+    """
     lw = store.ledger.alias("lw")
     return (
         select(lw.c.id)
         .where(
             lw.c.component_id == pts.c.component_id,
-            lw.c.cum_hours <= now.c.cum_hours - rate_window_h,
+            lw.c.cum_hours <= now.c.cum_hours - rate_window_h + CUM_TOLERANCE_H,
         )
         .order_by(lw.c.cum_hours.desc(), lw.c.period_end.desc(), lw.c.upload_id.desc())
         .limit(1)
