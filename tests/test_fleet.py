@@ -16,7 +16,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from monitor import fleet, lifecycle
+from monitor import fleet, lifecycle, snapshot
 
 AS_OF = date(2026, 6, 1)
 T = datetime(2026, 6, 1, tzinfo=UTC)
@@ -201,7 +201,7 @@ def test_running_totals_agree_with_lifecycle_per_upload_sums(hours, dmg, window)
     d = h * dmg * np.linspace(1.0, 2.0, h.size)  # heavier duty later
     cum_h, cum_d = np.cumsum(h), np.cumsum(d)
     # the window row as monitor.snapshot picks it: last row with cum_hours <= now - window
-    below = np.nonzero(cum_h <= cum_h[-1] - window)[0]
+    below = np.nonzero(cum_h <= cum_h[-1] - window + snapshot.CUM_TOLERANCE_H)[0]
     now = (T - timedelta(days=1), 0.0, {"cum_hours": cum_h[-1], "cum_damage": cum_d[-1]})
     win = None
     if below.size:
