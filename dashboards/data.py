@@ -131,14 +131,17 @@ def save_plan_options(url: str | None, opts: PlanOptions) -> None:
     """Store page options as the shop's plan settings (raises DomainError if rejected)."""
     from monitor import service_plan
 
-    service_plan.save_plan_settings(engine(url), {
-        "horizon_weeks": opts.horizon_weeks,
-        "capacity_per_week": opts.capacity_per_week,
-        "site_capacity": dict(opts.site_capacity),
-        "exchange_stock": dict(opts.exchange_stock),
-        "turnaround_days": dict(opts.turnaround_days) or 21.0,
-        "pair_within_h": opts.pair_within_h,
-    })
+    service_plan.save_plan_settings(
+        engine(url),
+        {
+            "horizon_weeks": opts.horizon_weeks,
+            "capacity_per_week": opts.capacity_per_week,
+            "site_capacity": dict(opts.site_capacity),
+            "exchange_stock": dict(opts.exchange_stock),
+            "turnaround_days": dict(opts.turnaround_days) or 21.0,
+            "pair_within_h": opts.pair_within_h,
+        },
+    )
 
 
 def clear() -> None:

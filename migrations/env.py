@@ -1,6 +1,7 @@
 """Alembic environment for drivespan (batch mode for SQLite, shared naming convention)."""
 
 from alembic import context
+
 from monitor.store import make_engine, metadata
 
 config = context.config

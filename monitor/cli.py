@@ -184,12 +184,21 @@ def emit(rows: list[dict], fmt: str, columns: list[str] | None = None) -> None:
     click.echo(df.to_string(index=False) if not df.empty else "(nothing to show)")
 
 
-
 # --- fleet status, one unit, service events ----------------------------------------
 
-RANK_TABLE_COLUMNS = ["unit", "position", "component_model", "remaining_h", "limiting",
-                      "due_date", "status", "consumed_fraction", "remaining_wear_h",
-                      "utilisation_h_per_day", "flags"]
+RANK_TABLE_COLUMNS = [
+    "unit",
+    "position",
+    "component_model",
+    "remaining_h",
+    "limiting",
+    "due_date",
+    "status",
+    "consumed_fraction",
+    "remaining_wear_h",
+    "utilisation_h_per_day",
+    "flags",
+]
 
 
 def _as_of(value: str | None):  # noqa: ANN202 - datetime.date | None
@@ -228,16 +237,26 @@ def _notice() -> None:
 
 
 @main.command("rank")
-@click.option("--as-of", "as_of", metavar="DATE", help="Status at the start of this day "
-              "(YYYY-MM-DD); default today.")
-@click.option("--reliability", "reliability", type=float, metavar="PCT",
-              help="Planning reliability in % (90-99.95); default the stored setting.")
+@click.option(
+    "--as-of",
+    "as_of",
+    metavar="DATE",
+    help="Status at the start of this day (YYYY-MM-DD); default today.",
+)
+@click.option(
+    "--reliability",
+    "reliability",
+    type=float,
+    metavar="PCT",
+    help="Planning reliability in % (90-99.95); default the stored setting.",
+)
 @click.option("--site", metavar="NAME", help="Only this site.")
 @format_option
 @db_option
 @domain_errors
-def rank_cmd(as_of: str | None, reliability: float | None, site: str | None, fmt: str,
-             db_url: str) -> None:
+def rank_cmd(
+    as_of: str | None, reliability: float | None, site: str | None, fmt: str, db_url: str
+) -> None:
     """List every drive, most urgent first, with remaining hours, due date and flags.
 
     Example: drivespan rank --as-of 2026-12-01 --reliability 95 --format json
@@ -245,8 +264,9 @@ def rank_cmd(as_of: str | None, reliability: float | None, site: str | None, fmt
     engine = service.init_db(db_url)
     day = _as_of(as_of)
     if not service.has_registry(engine):
-        raise service.DomainError("no fleet registry imported yet: run drivespan fleet "
-                                  "import FILE, then ingest telemetry")
+        raise service.DomainError(
+            "no fleet registry imported yet: run drivespan fleet import FILE, then ingest telemetry"
+        )
     df = service.fleet_status(engine, day, reliability_pct=reliability, site=site)
     records = service.rank_records(df)
     if fmt == "json":
@@ -269,8 +289,12 @@ def _frame_records(df) -> list[dict]:  # noqa: ANN001 - pandas.DataFrame
 
 @main.command("unit")
 @click.argument("tag")
-@click.option("--as-of", "as_of", metavar="DATE", help="Status at the start of this day "
-              "(YYYY-MM-DD); default today.")
+@click.option(
+    "--as-of",
+    "as_of",
+    metavar="DATE",
+    help="Status at the start of this day (YYYY-MM-DD); default today.",
+)
 @format_option
 @db_option
 @domain_errors
@@ -284,11 +308,20 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
     status = service.rank_records(rep.status)
     readings = {pos: _frame_records(d.case_drain) for pos, d in rep.components.items()}
     if fmt == "json":
-        click.echo(json.dumps({
-            "unit": rep.unit, "status": status, "uploads": _frame_records(rep.uploads),
-            "case_drain_readings": readings,
-            "service_history": _frame_records(rep.service_history),
-            "summary": rep.summary}, indent=2, default=str))
+        click.echo(
+            json.dumps(
+                {
+                    "unit": rep.unit,
+                    "status": status,
+                    "uploads": _frame_records(rep.uploads),
+                    "case_drain_readings": readings,
+                    "service_history": _frame_records(rep.service_history),
+                    "summary": rep.summary,
+                },
+                indent=2,
+                default=str,
+            )
+        )
         return
     if fmt == "csv":
         emit(_table_rows(status, list(status[0]) if status else []), fmt)
@@ -301,8 +334,7 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
         emit(_frame_records(df), "table", list(df.columns))
     for pos, rows in readings.items():
         click.echo(f"\ncase-drain readings, {pos}:")
-        emit(rows, "table", ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm",
-                             "used"])
+        emit(rows, "table", ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"])
     click.echo("")
     for line in rep.summary:
         click.echo(line)
@@ -316,19 +348,44 @@ def service_group() -> None:
 @service_group.command("add")
 @click.argument("tag")
 @click.option("--position", metavar="P", help="Drive position (for rebuild/replacement).")
-@click.option("--kind", required=True,
-              type=click.Choice(["rebuild", "replacement", "hour_meter_change"]))
-@click.option("--at", "at", required=True, metavar="ISO",
-              help="When, ISO 8601 with offset, e.g. 2026-11-20T08:00:00Z.")
-@click.option("--hour-meter", "hour_meter", required=True, type=float, metavar="H",
-              help="Hour meter at the event [h].")
-@click.option("--new-hour-meter", "new_hour_meter", type=float, metavar="H",
-              help="Reading of the new meter (hour_meter_change only) [h].")
+@click.option(
+    "--kind", required=True, type=click.Choice(["rebuild", "replacement", "hour_meter_change"])
+)
+@click.option(
+    "--at",
+    "at",
+    required=True,
+    metavar="ISO",
+    help="When, ISO 8601 with offset, e.g. 2026-11-20T08:00:00Z.",
+)
+@click.option(
+    "--hour-meter",
+    "hour_meter",
+    required=True,
+    type=float,
+    metavar="H",
+    help="Hour meter at the event [h].",
+)
+@click.option(
+    "--new-hour-meter",
+    "new_hour_meter",
+    type=float,
+    metavar="H",
+    help="Reading of the new meter (hour_meter_change only) [h].",
+)
 @click.option("--note", help="Free text, e.g. what was done.")
 @db_option
 @domain_errors
-def service_add(tag: str, position: str | None, kind: str, at: str, hour_meter: float,
-                new_hour_meter: float | None, note: str | None, db_url: str) -> None:
+def service_add(
+    tag: str,
+    position: str | None,
+    kind: str,
+    at: str,
+    hour_meter: float,
+    new_hour_meter: float | None,
+    note: str | None,
+    db_url: str,
+) -> None:
     """Record a rebuild or replacement of a drive, or an hour-meter change of a unit.
 
     A rebuild or replacement starts a new life: uploads up to it and case-drain readings
@@ -342,14 +399,25 @@ def service_add(tag: str, position: str | None, kind: str, at: str, hour_meter: 
     try:
         when = datetime.fromisoformat(at.replace("Z", "+00:00").replace("z", "+00:00"))
     except ValueError:
-        raise service.DomainError(f"--at {at!r} is not an ISO 8601 time: write e.g. "
-                                  "2026-11-20T08:00:00Z") from None
+        raise service.DomainError(
+            f"--at {at!r} is not an ISO 8601 time: write e.g. 2026-11-20T08:00:00Z"
+        ) from None
     engine = service.init_db(db_url)
-    ev = service.add_service_event(engine, tag, kind=kind, at=when, hour_meter=hour_meter,
-                                   position=position, new_hour_meter=new_hour_meter, note=note)
+    ev = service.add_service_event(
+        engine,
+        tag,
+        kind=kind,
+        at=when,
+        hour_meter=hour_meter,
+        position=position,
+        new_hour_meter=new_hour_meter,
+        note=note,
+    )
     where = f" {ev['position']}" if ev["position"] else ""
-    click.echo(f"recorded {ev['kind']} of {ev['unit']}{where} at {ev['at'].isoformat()}, "
-               f"hour meter {ev['hour_meter']:g} h")
+    click.echo(
+        f"recorded {ev['kind']} of {ev['unit']}{where} at {ev['at'].isoformat()}, "
+        f"hour meter {ev['hour_meter']:g} h"
+    )
 
 
 PLAN_FORMATS = ("table", "csv", "json", "xlsx", "ics")
@@ -360,16 +428,32 @@ PLAN_FORMATS = ("table", "csv", "json", "xlsx", "ics")
 @click.option("--weeks", type=int, help="Horizon in weeks (default: stored setting, 12).")
 @click.option("--capacity", type=int, help="Rebuilds the shop can do per week (stored: 3).")
 @click.option("--reliability", type=float, help="Planning reliability in % (90-99.95).")
-@click.option("--format", "fmt", type=click.Choice(PLAN_FORMATS), default="table",
-              show_default=True, help="Output format; xlsx and ics need --output.")
-@click.option("--output", type=click.Path(dir_okay=False, path_type=Path),
-              help="Write to this file instead of the screen.")
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(PLAN_FORMATS),
+    default="table",
+    show_default=True,
+    help="Output format; xlsx and ics need --output.",
+)
+@click.option(
+    "--output",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Write to this file instead of the screen.",
+)
 @click.option("--save", is_flag=True, help="Store --weeks/--capacity as the shop's settings.")
 @db_option
 @domain_errors
-def plan_cmd(as_of: str | None, weeks: int | None, capacity: int | None,
-             reliability: float | None, fmt: str, output: Path | None, save: bool,
-             db_url: str) -> None:
+def plan_cmd(
+    as_of: str | None,
+    weeks: int | None,
+    capacity: int | None,
+    reliability: float | None,
+    fmt: str,
+    output: Path | None,
+    save: bool,
+    db_url: str,
+) -> None:
     """Plan rebuilds week by week within the shop's capacity and exchange-unit stock.
 
     Earliest due date first; both loops of a machine share one downtime when the second
@@ -383,13 +467,25 @@ def plan_cmd(as_of: str | None, weeks: int | None, capacity: int | None,
 
     engine = service.init_db(db_url)
     if not service.has_registry(engine):
-        raise service.DomainError("no fleet registry imported yet: run drivespan fleet "
-                                  "import FILE, then ingest telemetry")
+        raise service.DomainError(
+            "no fleet registry imported yet: run drivespan fleet import FILE, then ingest telemetry"
+        )
     if save:
-        service_plan.save_plan_settings(engine, {k: v for k, v in (
-            ("horizon_weeks", weeks), ("capacity_per_week", capacity)) if v is not None})
-    plan = service_plan.make_plan(engine, _as_of(as_of), reliability_pct=reliability,
-                                  horizon_weeks=weeks, capacity_per_week=capacity)
+        service_plan.save_plan_settings(
+            engine,
+            {
+                k: v
+                for k, v in (("horizon_weeks", weeks), ("capacity_per_week", capacity))
+                if v is not None
+            },
+        )
+    plan = service_plan.make_plan(
+        engine,
+        _as_of(as_of),
+        reliability_pct=reliability,
+        horizon_weeks=weeks,
+        capacity_per_week=capacity,
+    )
     if fmt in ("xlsx", "ics") and output is None:
         raise service.DomainError(f"--format {fmt} writes a file: add --output FILE")
     if fmt in ("csv", "xlsx", "ics"):
@@ -401,17 +497,29 @@ def plan_cmd(as_of: str | None, weeks: int | None, capacity: int | None,
             click.echo(f"plan written to {output} ({len(plan.assignments)} rebuild(s))")
         return
     if fmt == "json":
-        rows = [{k: fleet_plain(v) for k, v in r.items()}
-                for r in plan.assignments.to_dict("records")]
+        rows = [
+            {k: fleet_plain(v) for k, v in r.items()} for r in plan.assignments.to_dict("records")
+        ]
         emit(rows, "json")
         return
     for line in planning.plan_summary(plan):
         click.echo(line)
-    cols = ["week", "week_start", "unit", "position", "site", "due_date", "late_days",
-            "paired_with"]
+    cols = [
+        "week",
+        "week_start",
+        "unit",
+        "position",
+        "site",
+        "due_date",
+        "late_days",
+        "paired_with",
+    ]
     click.echo("")
-    emit([{k: fleet_plain(r[k]) for k in cols} for r in plan.assignments.to_dict("records")],
-         "table", cols)
+    emit(
+        [{k: fleet_plain(r[k]) for k in cols} for r in plan.assignments.to_dict("records")],
+        "table",
+        cols,
+    )
 
 
 def fleet_plain(value):  # noqa: ANN001, ANN201
@@ -422,8 +530,9 @@ def fleet_plain(value):  # noqa: ANN001, ANN201
 
 @main.command("dashboard")
 @click.option("--port", type=int, default=8501, show_default=True, help="Port to serve on.")
-@click.option("--host", default="127.0.0.1", show_default=True,
-              help="Address to bind (loopback by default).")
+@click.option(
+    "--host", default="127.0.0.1", show_default=True, help="Address to bind (loopback by default)."
+)
 @db_option
 @domain_errors
 def dashboard_cmd(port: int, host: str, db_url: str) -> None:
@@ -444,18 +553,28 @@ def dashboard_cmd(port: int, host: str, db_url: str) -> None:
 
 
 @main.command("demo")
-@click.option("--folder", type=click.Path(file_okay=False, path_type=Path),
-              default=Path("drivespan-demo"), show_default=True,
-              help="Folder for the demo data and database.")
+@click.option(
+    "--folder",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=Path("drivespan-demo"),
+    show_default=True,
+    help="Folder for the demo data and database.",
+)
 @click.option("--seed", type=int, default=7, show_default=True, help="Generator seed.")
-@click.option("--scale", type=float, default=1.0, show_default=True,
-              help="Fleet size factor (story units are always kept).")
+@click.option(
+    "--scale",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="Fleet size factor (story units are always kept).",
+)
 @click.option("--no-dashboard", is_flag=True, help="Print the ranking and stop.")
 @click.option("--port", type=int, default=8501, show_default=True, help="Dashboard port.")
 @click.option("--yes", is_flag=True, help="Replace --folder even if drivespan did not make it.")
 @domain_errors
-def demo_cmd(folder: Path, seed: int, scale: float, no_dashboard: bool, port: int,
-             yes: bool) -> None:
+def demo_cmd(
+    folder: Path, seed: int, scale: float, no_dashboard: bool, port: int, yes: bool
+) -> None:
     """Build the invented demo fleet, ingest it, print the ranking and open the dashboard.
 
     The demo gets its own folder and SQLite database; your own database is never touched.
@@ -468,9 +587,11 @@ def demo_cmd(folder: Path, seed: int, scale: float, no_dashboard: bool, port: in
 
     if demo.folder_is_foreign(folder) and not yes:
         if not sys.stdin.isatty() or not click.confirm(
-                f"{folder} was not made by drivespan demo; replace it?", default=False):
-            raise service.DomainError(f"{folder} exists and was not made by drivespan demo: "
-                                      "pass --folder NEW or --yes")
+            f"{folder} was not made by drivespan demo; replace it?", default=False
+        ):
+            raise service.DomainError(
+                f"{folder} exists and was not made by drivespan demo: pass --folder NEW or --yes"
+            )
         yes = True
     t0 = time.perf_counter()
     with click.progressbar(length=1, label="generating and ingesting", file=sys.stderr) as bar:
@@ -479,20 +600,22 @@ def demo_cmd(folder: Path, seed: int, scale: float, no_dashboard: bool, port: in
             bar.length = total
             bar.update(done - bar.pos)
 
-        res = demo.build_demo(folder, seed=seed, units_scale=scale, overwrite_foreign=yes,
-                              progress=progress)
+        res = demo.build_demo(
+            folder, seed=seed, units_scale=scale, overwrite_foreign=yes, progress=progress
+        )
     rejected = [r for r in res.results if r.status == service.REJECTED]
     accepted = sum(r.status == service.ACCEPTED for r in res.results)
-    click.echo(f"demo fleet in {res.folder} ({time.perf_counter() - t0:.0f} s): "
-               f"{accepted} file(s) accepted, {len(rejected)} rejected")
+    click.echo(
+        f"demo fleet in {res.folder} ({time.perf_counter() - t0:.0f} s): "
+        f"{accepted} file(s) accepted, {len(rejected)} rejected"
+    )
     for r in rejected:
         click.echo(r.summary)
         for p in r.problems:
             click.echo(f"  {p}")
     engine = service.init_db(res.db_url)
     df = service.fleet_status(engine, res.as_of)
-    click.echo(f"\nranking as of {res.as_of.isoformat()} (most urgent first, top 15 of "
-               f"{len(df)}):")
+    click.echo(f"\nranking as of {res.as_of.isoformat()} (most urgent first, top 15 of {len(df)}):")
     records = service.rank_records(df)[:15]
     emit(_table_rows(records, RANK_TABLE_COLUMNS), "table", RANK_TABLE_COLUMNS)
     _notice()

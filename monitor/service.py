@@ -53,7 +53,8 @@ class FileResult:
             return f"{self.name}: registry {self.status}"
         verb = "valid" if self.status == VALID else "accepted"
         extra = f", {self.skipped} already stored" if self.skipped else ""
-        return f"{self.name}: {verb}, {self.histograms} histogram(s), {self.readings} reading(s){extra}"
+        counts = f"{self.histograms} histogram(s), {self.readings} reading(s)"
+        return f"{self.name}: {verb}, {counts}{extra}"
 
 
 def init_db(url: str | None = None) -> Engine:
@@ -185,20 +186,6 @@ def recompute(engine: Engine, progress: Callable[[int, int], None] | None = None
     """Rebuild the whole damage ledger from the stored histograms; return its row count."""
     with store.transaction(engine) as conn:
         return ledger.recompute(conn, progress=progress)
-
-
-# --- fleet status (contract for the fleet engine and the dashboard) ----------------
-# Implement below exactly as specified here (full text also in /work/service_api.md):
-# ## Service API for fleet status (contract between the fleet engine and the dashboard)
-#
-# In monitor/service.py (appended by the fleet-engine engineer):
-#
-# - `DEFAULT_SETTINGS` dict: reliability_pct=90.0, rate_window_h=500.0, stale_days=14, status limits {"overdue_h": 0, "due_h": 250, "plan_h": 1000}, utilisation_days=30, case_drain_step_factor=1.5, heavy_relief_fraction=0.01, min_wear_readings=3.
-# - `get_settings(engine) -> dict` (defaults overlaid with stored values), `save_settings(engine, values: dict) -> dict` (validates: reliability 90–99.95, positive window, ordered band limits; raises DomainError naming the field).
-# - `fleet_status(engine, as_of: date | None = None, *, reliability_pct: float | None = None, rate_window_h: float | None = None, site: str | None = None) -> pandas.DataFrame`: one row per component, sorted most urgent first (remaining_h ascending, no-estimate last, ties by due_date then unit tag then position). Columns: exactly the stable rank keys `unit, site, position, component_model, hour_meter, hours_since_rebuild, consumed_fraction, damage_rate_per_h, remaining_bearing_h, remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high, remaining_h, limiting, utilisation_h_per_day, due_date, status, relief_hours, relief_heat_kwh, last_upload_at, data_age_days, flags` followed by extra columns `machine_type, component_id, case_drain_level_lpm (normalised fitted level now), case_drain_limit_lpm, case_drain_slope_lpm_per_h, cutoff_hours, has_cutoff`. `flags` is a list of short strings from {"stale", "case_drain_step", "heavy_relief", "few_wear_readings"}; `limiting` is "bearing", "wear" or None; `due_date` a datetime.date or None; `last_upload_at` a tz-aware datetime or None; status one of the band names exported by monitor.lifecycle (plus a "no estimate" band).
-# - `rank_records(df) -> list[dict]`: JSON-ready records with exactly the rank keys (nan -> None, dates ISO 8601 strings).
-# - `unit_report(engine, tag: str, as_of: date | None = None, *, reliability_pct=None, rate_window_h=None) -> UnitReport` (frozen dataclass), raising DomainError for an unknown tag (with close matches). Fields: `unit` (dict: tag, site, machine_type, oil), `status` (DataFrame: the fleet_status rows of this unit), `components` (dict position -> ComponentDetail), `service_history` (DataFrame: at, position, kind, hour_meter, note), `uploads` (DataFrame of recent uploads: period_start, period_end, hour_meter_start, hour_meter_end, file), `summary` (list of plain-words sentences on why the unit stands where it does).
-#   `ComponentDetail` (frozen dataclass): `model` (monitor.records.ComponentModelSpec), `spectrum` (DataFrame: pressure_low_bar, pressure_high_bar, hours — summed over the rate window), `life` (DataFrame: hour_meter, consumed_fraction — per upload since the last rebuild, plus `projection` DataFrame with two rows from now to end of life at the current rate), `case_drain` (DataFrame: taken_at, hour_meter, case_drain_lpm (raw), normalised_lpm, used (bool, after last rebuild)), `trend` (the wear-trend dataclass from monitor.wear or None), `case_drain_limit_lpm`, `relief_monthly` (DataFrame: month (first day, date), relief_hours, cutoff_hours, relief_heat_kwh), `oil_samples` (DataFrame: taken_at, iso4406, r4, r6, r14 — scale numbers, None where '-').
 
 
 # === fleet status, unit report and service events (fleet engine) ===================

@@ -86,8 +86,10 @@ def make_plan(
     Keyword overrides (``horizon_weeks``, ``capacity_per_week``, ``site_capacity``,
     ``exchange_stock``, ``turnaround_days``, ``pair_within_h``) apply to this plan only.
     """
-    settings = {**get_plan_settings(engine), **{k: v for k, v in overrides.items()
-                                                if v is not None}}
+    settings = {
+        **get_plan_settings(engine),
+        **{k: v for k, v in overrides.items() if v is not None},
+    }
     _checked(settings)
     as_of = as_of or _today()
     status = fleet_status(engine, as_of, reliability_pct=reliability_pct)

@@ -51,12 +51,39 @@ class Cluster:
         if os.geteuid() == 0:
             shutil.chown(self.root, "postgres", "postgres")
         os.chmod(self.root, 0o700)
-        self._run([str(PG_BIN / "initdb"), "-D", str(self.data), "-U", "postgres",
-                   "-A", "trust", "-E", "UTF8", "--no-sync"])
-        opts = (f"-p {self.port} -k {self.root} -c listen_addresses=127.0.0.1 "
-                "-c fsync=off -c synchronous_commit=off -c full_page_writes=off")
-        self._run([str(PG_BIN / "pg_ctl"), "-D", str(self.data), "-o", opts,
-                   "-l", str(self.root / "log"), "-w", "-t", "60", "start"])
+        self._run(
+            [
+                str(PG_BIN / "initdb"),
+                "-D",
+                str(self.data),
+                "-U",
+                "postgres",
+                "-A",
+                "trust",
+                "-E",
+                "UTF8",
+                "--no-sync",
+            ]
+        )
+        opts = (
+            f"-p {self.port} -k {self.root} -c listen_addresses=127.0.0.1 "
+            "-c fsync=off -c synchronous_commit=off -c full_page_writes=off"
+        )
+        self._run(
+            [
+                str(PG_BIN / "pg_ctl"),
+                "-D",
+                str(self.data),
+                "-o",
+                opts,
+                "-l",
+                str(self.root / "log"),
+                "-w",
+                "-t",
+                "60",
+                "start",
+            ]
+        )
         deadline = time.time() + 30
         while time.time() < deadline:
             try:
@@ -69,8 +96,9 @@ class Cluster:
     def create_database(self, name: str) -> str:
         import psycopg
 
-        with psycopg.connect(f"host=127.0.0.1 port={self.port} user=postgres dbname=postgres",
-                             autocommit=True) as conn:
+        with psycopg.connect(
+            f"host=127.0.0.1 port={self.port} user=postgres dbname=postgres", autocommit=True
+        ) as conn:
             conn.execute(f'CREATE DATABASE "{name}"')
         return f"postgresql+psycopg://postgres@127.0.0.1:{self.port}/{name}"
 
