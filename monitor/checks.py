@@ -46,6 +46,50 @@ def histogram_sha(h: Histogram) -> str:
     return m.hexdigest()
 
 
+def _rounded_rows(arrays: list) -> list[bytes]:
+    """``np.round(a, 9).tobytes()`` of each array, done once per stack of equal shapes."""
+    out: list[bytes] = [b""] * len(arrays)
+    by_shape: dict[tuple, list[int]] = {}
+    for i, a in enumerate(arrays):
+        by_shape.setdefault(np.shape(a), []).append(i)
+    for shape, idx in by_shape.items():
+        stack = np.round(np.stack([np.asarray(arrays[i], dtype=float) for i in idx]), 9)
+        data = stack.tobytes()
+        w = 8 * int(np.prod(shape, dtype=np.int64))
+        for j, i in enumerate(idx):
+            out[i] = data[j * w : (j + 1) * w]
+    return out
+
+
+def histogram_shas(hs: list[Histogram]) -> list[str]:
+    """:func:`histogram_sha` of many histograms (the same digests, arrays rounded in stacks)."""
+    iso: dict = {}
+
+    def stamp(t) -> str:  # noqa: ANN001
+        s = iso.get(t)
+        if s is None:
+            s = iso[t] = t.isoformat()
+        return s
+
+    parts = [
+        _rounded_rows([h.pressure_low_bar for h in hs]),
+        _rounded_rows([h.pressure_high_bar for h in hs]),
+        _rounded_rows([h.hours for h in hs]),
+    ]
+    speed = [i for i, h in enumerate(hs) if h.speed_low_rpm is not None]
+    s_lo = dict(zip(speed, _rounded_rows([hs[i].speed_low_rpm for i in speed]), strict=True))
+    s_hi = dict(zip(speed, _rounded_rows([hs[i].speed_high_rpm for i in speed]), strict=True))
+    out = []
+    for i, h in enumerate(hs):
+        head = (
+            f"{h.quantity}|{stamp(h.period_start)}|{stamp(h.period_end)}|"
+            f"{h.hour_meter_start:.6f}|{h.hour_meter_end:.6f}|"
+        ).encode()
+        body = parts[0][i] + parts[1][i] + s_lo.get(i, b"") + s_hi.get(i, b"") + parts[2][i]
+        out.append(hashlib.sha256(head + body).hexdigest())
+    return out
+
+
 def plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
     """Match a parsed file to the registry and the stored history."""
     plan = UploadPlan()
@@ -53,11 +97,14 @@ def plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
     keys |= {(r.unit, r.position) for r in parsed.readings}
     lookup = _component_lookup(conn, {u for u, _ in keys})
     name = parsed.name
+    resolved = []
     for h in parsed.histograms:
         comp = _resolve(lookup, h.unit, h.position, name, h.line, plan.problems)
         if comp is not None:
-            plan.histograms.append((h, comp[0], histogram_sha(h)))
+            resolved.append((h, comp[0]))
             plan.component_unit[comp[0]] = comp[1]
+    shas = histogram_shas([h for h, _ in resolved]) if not plan.problems else []
+    plan.histograms = [(h, c, sha) for (h, c), sha in zip(resolved, shas, strict=False)]
     for r in parsed.readings:
         comp = _resolve(lookup, r.unit, r.position, name, r.line, plan.problems)
         if comp is not None:

@@ -17,10 +17,19 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import Connection, delete, func, select, update
+from sqlalchemy import Connection, bindparam, delete, select, text
 
 from monitor import bearings, queries, relief, spectrum, store
 from monitor import oil as oil_mod
+from monitor.ledger_batch import (
+    STORED_SQL,
+    Batch,
+    batch_from_histograms,
+    batch_from_rows,
+    bind_values,
+    insert_rows,
+    update_rows,
+)
 from monitor.records import QUANTITY_PRESSURE_SPEED, ComponentModelSpec, Histogram
 
 CUM_COLUMNS = {
@@ -139,13 +148,43 @@ def _oil_factor(
 def _metrics_same_shape(
     hs: list[Histogram], quantity: str, m: ComponentModelSpec, oil: OilCondition | None
 ) -> dict:
-    p_lo, p_hi = _stack(hs, "pressure_low_bar"), _stack(hs, "pressure_high_bar")
-    hours = _stack(hs, "hours")
+    mean = np.array([np.nan if h.mean_speed_rpm is None else h.mean_speed_rpm for h in hs])
+    ps = quantity == QUANTITY_PRESSURE_SPEED
+    return metrics_arrays(
+        quantity,
+        m,
+        _stack(hs, "pressure_low_bar"),
+        _stack(hs, "pressure_high_bar"),
+        _stack(hs, "speed_low_rpm") if ps else None,
+        _stack(hs, "speed_high_rpm") if ps else None,
+        _stack(hs, "hours"),
+        mean,
+        oil,
+    )
+
+
+def metrics_arrays(
+    quantity: str,
+    m: ComponentModelSpec,
+    p_lo: np.ndarray,
+    p_hi: np.ndarray,
+    s_lo: np.ndarray | None,
+    s_hi: np.ndarray | None,
+    hours: np.ndarray,
+    mean: np.ndarray,
+    oil: OilCondition | None,
+) -> dict:
+    """Life-model results of k histograms of one model, quantity and shape.
+
+    ``p_lo``/``p_hi`` (k, P) [bar], ``s_lo``/``s_hi`` (k, S) [rpm] for pressure-by-speed
+    matrices, ``hours`` (k, P) or (k, P, S) [h], ``mean`` (k,) mean speed [rpm], nan
+    where not given. Returns arrays (k,) keyed by the :class:`Metrics` field names.
+    """
     kw = _model_kwargs(m)
+    k = p_lo.shape[0]
     if quantity == QUANTITY_PRESSURE_SPEED:
-        s_lo, s_hi = _stack(hs, "speed_low_rpm"), _stack(hs, "speed_high_rpm")
         dp, speed3 = spectrum.band_conditions_2d(
-            p_lo, p_hi, s_lo, s_hi, len(hs), low_side_bar=m.low_side_bar
+            p_lo, p_hi, s_lo, s_hi, k, low_side_bar=m.low_side_bar
         )
         a_oil = _oil_factor(dp, speed3, m, oil)
         damage = spectrum.damage_2d(p_lo, p_hi, s_lo, s_hi, hours, life_factor=a_oil, **kw)
@@ -157,11 +196,10 @@ def _metrics_same_shape(
             m.rated_speed_rpm,
         )
     else:
-        mean = np.array([np.nan if h.mean_speed_rpm is None else h.mean_speed_rpm for h in hs])
         dp, speed = spectrum.band_conditions_1d(
             p_lo,
             p_hi,
-            len(hs),
+            k,
             rated_speed_rpm=m.rated_speed_rpm,
             low_side_bar=m.low_side_bar,
             mean_speed_rpm=mean,
@@ -217,171 +255,88 @@ def oil_condition(
     return OilCondition(np.full(len(ends), nu), ec)
 
 
-# --- writing at ingest --------------------------------------------------------------
+# --- component data, looked up once per write ----------------------------------------
 
 
-def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
-    """Store a checked file's uploads, histograms, readings and their ledger rows.
+@dataclass(frozen=True)
+class ComponentTable:
+    """Model id, model rating and registry row of every component (plain dicts)."""
 
-    New ISO 4406 samples change the oil-condition factor of later uploads, so the
-    ledger of a component with bearing data that got a new sample is rebuilt whole.
-    """
-    upload_ids = _insert_uploads(conn, file_id, plan)
-    _insert_histograms(conn, plan, upload_ids)
-    _insert_readings(conn, file_id, plan)
-    comps = queries.components_frame(conn).set_index("component_id")
-    resampled = sorted(
-        {c for r, c in plan.readings if r.iso4406}
-        & {c for c in comps.index if has_bearing_data(queries.model_spec(comps.loc[c]))}
+    model_of: dict[int, int]
+    models: dict[int, ComponentModelSpec]
+    rows: dict[int, dict]
+
+    def bearing_components(self) -> set[int]:
+        """Components whose model has the bearing data of the oil-condition factor."""
+        with_data = {mid for mid, m in self.models.items() if has_bearing_data(m)}
+        return {c for c, mid in self.model_of.items() if mid in with_data}
+
+
+def component_table(conn: Connection) -> ComponentTable:
+    """The :class:`ComponentTable` of the registry as stored now."""
+    recs = queries.components_frame(conn).to_dict("records")
+    models: dict[int, ComponentModelSpec] = {}
+    for r in recs:
+        if int(r["model_id"]) not in models:
+            models[int(r["model_id"])] = queries.model_spec(r)
+    return ComponentTable(
+        {int(r["component_id"]): int(r["model_id"]) for r in recs},
+        models,
+        {int(r["component_id"]): r for r in recs},
     )
-    if resampled:
-        rebuild_components(conn, resampled, comps)
-    items = [
-        (h, c, upload_ids[_upload_key(h, plan.component_unit[c])])
-        for h, c, _ in plan.histograms
-        if c not in set(resampled)
-    ]
-    if not items:
-        return
-    rows = _rows_for(conn, _select_for_ledger(items), comps)
-    conn.execute(store.ledger.insert(), rows.to_dict("records"))
-    starts = rows.groupby("component_id")["period_end"].min()
-    refresh_cumulative(conn, starts.index.tolist(), starts.min())
 
 
-def _upload_key(h: Histogram, unit_id: int) -> tuple:
-    return (unit_id, h.period_start, h.period_end, h.hour_meter_start, h.hour_meter_end)
-
-
-def _insert_uploads(conn: Connection, file_id: int, plan) -> dict[tuple, int]:  # noqa: ANN001
-    keys = list(
-        dict.fromkeys(_upload_key(h, plan.component_unit[c]) for h, c, _ in plan.histograms)
-    )
-    if not keys:
-        return {}
-    rows = [
-        dict(
-            file_id=file_id,
-            unit_id=k[0],
-            period_start=k[1],
-            period_end=k[2],
-            hour_meter_start=k[3],
-            hour_meter_end=k[4],
-        )
-        for k in keys
-    ]
-    t = store.upload
-    stmt = t.insert().returning(t.c.id, sort_by_parameter_order=True)
-    ids = conn.execute(stmt, rows).scalars().all()
-    return dict(zip(keys, ids, strict=True))
-
-
-def _insert_histograms(conn: Connection, plan, upload_ids: dict) -> None:  # noqa: ANN001
-    rows = []
-    for h, comp, sha in plan.histograms:
-        speed = None
-        if h.speed_low_rpm is not None:
-            speed = store.pack(np.concatenate([h.speed_low_rpm, h.speed_high_rpm]))
-        rows.append(
-            dict(
-                upload_id=upload_ids[_upload_key(h, plan.component_unit[comp])],
-                component_id=comp,
-                quantity=h.quantity,
-                period_start=h.period_start,
-                period_end=h.period_end,
-                n_pressure=len(h.pressure_low_bar),
-                n_speed=0 if h.speed_low_rpm is None else len(h.speed_low_rpm),
-                pressure_bands=store.pack(
-                    np.concatenate([h.pressure_low_bar, h.pressure_high_bar])
-                ),
-                speed_bands=speed,
-                hours=store.pack(h.hours),
-                total_hours=h.total_hours,
-                mean_speed_rpm=h.mean_speed_rpm,
-                content_sha256=sha,
+def batch_metrics(conn: Connection, batch: Batch, table: ComponentTable) -> dict[str, np.ndarray]:
+    """Life-model results per batch row, one model call per shape group and model."""
+    n = len(batch)
+    out = {k: np.zeros(n) for k in Metrics.__dataclass_fields__}
+    model_ids = np.array([table.model_of[c] for c in batch.component_id.tolist()], dtype=np.int64)
+    nu, ec = _batch_oil(conn, batch, table, model_ids)
+    for g in batch.groups:
+        mids = model_ids[g.rows]
+        for mid in np.unique(mids):
+            sel = np.flatnonzero(mids == mid) if mids.min() != mids.max() else slice(None)
+            rows = g.rows[sel]
+            m = table.models[int(mid)]
+            oil = OilCondition(nu[rows], ec[rows]) if has_bearing_data(m) else None
+            res = metrics_arrays(
+                g.quantity,
+                m,
+                g.p_lo[sel],
+                g.p_hi[sel],
+                None if g.s_lo is None else g.s_lo[sel],
+                None if g.s_hi is None else g.s_hi[sel],
+                g.hours[sel],
+                g.mean_speed[sel],
+                oil,
             )
-        )
-    if rows:
-        conn.execute(store.histogram.insert(), rows)
+            for k, v in res.items():
+                out[k][rows] = v
+    return out
 
 
-def _insert_readings(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001
-    rows = [
-        dict(
-            file_id=file_id,
-            component_id=comp,
-            taken_at=r.taken_at,
-            hour_meter=r.hour_meter,
-            case_drain_lpm=r.case_drain_lpm,
-            test_pressure_bar=r.test_pressure_bar,
-            oil_temp_c=r.oil_temp_c,
-            iso4406=r.iso4406,
-        )
-        for r, comp in plan.readings
-    ]
-    if rows:
-        conn.execute(store.reading.insert(), rows)
-
-
-def _select_for_ledger(items: list[tuple[Histogram, int, tuple]]) -> list[tuple]:
-    """One histogram per (upload, component): a pressure-by-speed matrix wins."""
-    chosen: dict[tuple, tuple] = {}
-    for h, comp, ukey in items:
-        k = (ukey, comp)
-        if k not in chosen or h.quantity == QUANTITY_PRESSURE_SPEED:
-            chosen[k] = (h, comp, ukey)
-    return list(chosen.values())
-
-
-def _rows_for(conn: Connection, items: list[tuple], comps: pd.DataFrame) -> pd.DataFrame:
-    """Ledger rows (without running totals) of (histogram, component, upload id) items."""
-    by_model: dict[int, list] = {}
-    for it in items:
-        by_model.setdefault(int(comps.loc[it[1], "model_id"]), []).append(it)
-    samples = _oil_samples(conn, sorted({it[1] for it in items}))
-    frames = []
-    for group in by_model.values():
-        first = comps.loc[group[0][1]]
-        model = queries.model_spec(first)
-        oil = _group_oil(group, comps, model, samples)
-        met = metrics_for([g[0] for g in group], model, oil)
-        frames.append(
-            pd.DataFrame(
-                {
-                    "upload_id": [g[2] for g in group],
-                    "component_id": [g[1] for g in group],
-                    "period_end": [g[0].period_end for g in group],
-                    "hour_meter_end": [g[0].hour_meter_end for g in group],
-                    "meter_hours": [g[0].hour_meter_end - g[0].hour_meter_start for g in group],
-                    **{k: getattr(met, k) for k in Metrics.__dataclass_fields__},
-                }
-            )
-        )
-    return pd.concat(frames, ignore_index=True)
-
-
-def _group_oil(
-    group: list, comps: pd.DataFrame, model: ComponentModelSpec, samples: dict[int, pd.DataFrame]
-) -> OilCondition | None:
-    """Oil condition of every item of one model group, in item order (None if unknown)."""
-    if not has_bearing_data(model):
-        return None
-    nu = np.full(len(group), np.nan)
-    ec = np.full(len(group), np.nan)
-    idx_by_comp: dict[int, list[int]] = {}
-    for i, g in enumerate(group):
-        idx_by_comp.setdefault(g[1], []).append(i)
-    for comp, idx in idx_by_comp.items():
-        if comp not in samples:
-            continue
-        line = oil_mod.oil_line_from_spec(**_oil_kwargs(comps.loc[comp]))
-        cond = oil_condition(samples[comp], [group[i][0].period_end for i in idx], model, line)
+def _batch_oil(
+    conn: Connection, batch: Batch, table: ComponentTable, model_ids: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Oil viscosity [mm2/s] and eC [-] per row; nan where unknown or not needed."""
+    nu, ec = np.full(len(batch), np.nan), np.full(len(batch), np.nan)
+    wanted = sorted(table.bearing_components() & set(np.unique(batch.component_id).tolist()))
+    samples = _oil_samples(conn, wanted) if wanted else {}
+    if not samples:
+        return nu, ec
+    order = np.argsort(batch.component_id, kind="stable")
+    comps = batch.component_id[order]
+    for comp, g in samples.items():
+        idx = order[np.searchsorted(comps, comp) : np.searchsorted(comps, comp, side="right")]
+        model = table.models[table.model_of[comp]]
+        line = oil_mod.oil_line_from_spec(**_oil_kwargs(table.rows[comp]))
+        cond = oil_condition(g, [batch.period_end[i] for i in idx], model, line)
         if cond is not None:
             nu[idx], ec[idx] = cond.viscosity_mm2s, cond.contamination_ec
-    return OilCondition(nu, ec)
+    return nu, ec
 
 
-def _oil_kwargs(row: pd.Series) -> dict:
+def _oil_kwargs(row: dict) -> dict:
     spec = queries.oil_spec(row)
     return dict(
         iso_vg=spec.iso_vg,
@@ -403,6 +358,243 @@ def _oil_samples(conn: Connection, comp_ids: list[int]) -> dict[int, pd.DataFram
     return {int(c): g for c, g in df.groupby("component_id")}
 
 
+LEDGER_COLUMNS = [
+    "upload_id",
+    "component_id",
+    "period_end",
+    "hour_meter_end",
+    "meter_hours",
+    *Metrics.__dataclass_fields__,
+    *CUM_COLUMNS,
+]
+"""Columns of a ledger row as written, in order (``id`` is assigned by the database)."""
+
+
+def _ordered(batch: Batch, ends_ns: np.ndarray) -> np.ndarray:
+    """Positions in ledger order: component, period end, upload."""
+    return np.lexsort((batch.upload_id, ends_ns, batch.component_id))
+
+
+def _running_totals(comp: np.ndarray, values: dict[str, np.ndarray]) -> dict:
+    """Running totals per component of rows in ledger order (from zero)."""
+    frame = pd.DataFrame({col: values[col] for col in CUM_COLUMNS.values()})
+    sums = frame.groupby(comp, sort=False).cumsum()
+    return {cum: sums[col].to_numpy() for cum, col in CUM_COLUMNS.items()}
+
+
+def _ledger_tuples(
+    conn: Connection, batch: Batch, values: dict, order: np.ndarray, *, raw: bool
+) -> list[tuple]:
+    """Insert tuples of ledger rows in ``order`` (``raw``: period ends as stored)."""
+    ends = [batch.period_end[i] for i in order.tolist()]
+    if not raw:
+        ends = bind_values(conn, store.ledger, "period_end", ends)
+    cols = [
+        batch.upload_id[order].tolist(),
+        batch.component_id[order].tolist(),
+        ends,
+        *(np.asarray(values[c])[order].tolist() for c in LEDGER_COLUMNS[3:]),
+    ]
+    return list(zip(*cols, strict=True))
+
+
+# --- writing at ingest --------------------------------------------------------------
+
+
+def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
+    """Store a checked file's uploads, histograms, readings and their ledger rows.
+
+    New ISO 4406 samples change the oil-condition factor of later uploads, so the
+    ledger of a component with bearing data that got a new sample is rebuilt whole.
+    """
+    table = component_table(conn)
+    upload_ids = _insert_uploads(conn, file_id, plan)
+    items = [
+        (h, c, upload_ids[_upload_key(h, plan.component_unit[c])]) for h, c, _ in plan.histograms
+    ]
+    every = batch_from_histograms(items)
+    _insert_histograms(conn, plan, items, every)
+    _insert_readings(conn, file_id, plan)
+    resampled = sorted({c for r, c in plan.readings if r.iso4406} & table.bearing_components())
+    if resampled:
+        rebuild_components(conn, resampled, table)
+    skip = set(resampled)
+    chosen = _select_for_ledger([it for it in items if it[1] not in skip])
+    if not chosen:
+        return
+    batch = every if len(chosen) == len(items) else batch_from_histograms(chosen)
+    _append_ledger(conn, batch, table)
+
+
+def _upload_key(h: Histogram, unit_id: int) -> tuple:
+    return (unit_id, h.period_start, h.period_end, h.hour_meter_start, h.hour_meter_end)
+
+
+def _insert_uploads(conn: Connection, file_id: int, plan) -> dict[tuple, int]:  # noqa: ANN001
+    keys = list(
+        dict.fromkeys(_upload_key(h, plan.component_unit[c]) for h, c, _ in plan.histograms)
+    )
+    if not keys:
+        return {}
+    t = store.upload
+    unit_id, start, end, hm0, hm1 = (list(v) for v in zip(*keys, strict=True))
+    start = bind_values(conn, t, "period_start", start)
+    end = bind_values(conn, t, "period_end", end)
+    rows = list(zip([file_id] * len(keys), unit_id, start, end, hm0, hm1, strict=True))
+    cols = ["file_id", "unit_id", "period_start", "period_end"]
+    insert_rows(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], rows)
+    # ids rise in insert order (SQLite rowids; one session's sequence values in PostgreSQL)
+    ids = conn.execute(select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id)).scalars()
+    ids = ids.all()
+    return dict(zip(keys, ids, strict=True))
+
+
+HISTOGRAM_COLUMNS = [
+    "upload_id",
+    "component_id",
+    "quantity",
+    "period_start",
+    "period_end",
+    "n_pressure",
+    "n_speed",
+    "pressure_bands",
+    "speed_bands",
+    "hours",
+    "total_hours",
+    "mean_speed_rpm",
+    "content_sha256",
+]
+
+
+def _blobs(a: np.ndarray, b: np.ndarray | None = None) -> list[bytes]:
+    """Row-wise :func:`monitor.store.pack` of a (k, ...) array, or of [a | b] per row."""
+    flat = a.reshape(a.shape[0], -1) if b is None else np.concatenate([a, b], axis=1)
+    data = np.ascontiguousarray(flat, dtype="<f8").tobytes()
+    w = flat.shape[1] * 8
+    return [data[i : i + w] for i in range(0, len(data), w)]
+
+
+def _insert_histograms(conn: Connection, plan, items: list, batch: Batch) -> None:  # noqa: ANN001
+    n = len(items)
+    if not n:
+        return
+    pressure, speed, hours = [b""] * n, [None] * n, [b""] * n
+    total = np.zeros(n)
+    for g in batch.groups:
+        rows = g.rows.tolist()
+        for i, blob in zip(rows, _blobs(g.p_lo, g.p_hi), strict=True):
+            pressure[i] = blob
+        for i, blob in zip(rows, _blobs(g.hours), strict=True):
+            hours[i] = blob
+        if g.s_lo is not None:
+            for i, blob in zip(rows, _blobs(g.s_lo, g.s_hi), strict=True):
+                speed[i] = blob
+        total[g.rows] = g.hours.reshape(len(rows), -1).sum(axis=1)
+    hs = [it[0] for it in items]
+    t = store.histogram
+    cols = [
+        batch.upload_id.tolist(),
+        batch.component_id.tolist(),
+        [h.quantity for h in hs],
+        bind_values(conn, t, "period_start", [h.period_start for h in hs]),
+        bind_values(conn, t, "period_end", [h.period_end for h in hs]),
+        [len(h.pressure_low_bar) for h in hs],
+        [0 if h.speed_low_rpm is None else len(h.speed_low_rpm) for h in hs],
+        pressure,
+        speed,
+        hours,
+        total.tolist(),
+        [h.mean_speed_rpm for h in hs],
+        [sha for _, _, sha in plan.histograms],
+    ]
+    insert_rows(conn, t, HISTOGRAM_COLUMNS, list(zip(*cols, strict=True)))
+
+
+def _insert_readings(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001
+    rows = [
+        dict(
+            file_id=file_id,
+            component_id=comp,
+            taken_at=r.taken_at,
+            hour_meter=r.hour_meter,
+            case_drain_lpm=r.case_drain_lpm,
+            test_pressure_bar=r.test_pressure_bar,
+            oil_temp_c=r.oil_temp_c,
+            iso4406=r.iso4406,
+        )
+        for r, comp in plan.readings
+    ]
+    if rows:
+        conn.execute(store.reading.insert(), rows)
+
+
+def _select_for_ledger(items: list[tuple[Histogram, int, int]]) -> list[tuple]:
+    """One histogram per (upload, component): a pressure-by-speed matrix wins."""
+    chosen: dict[tuple, tuple] = {}
+    for h, comp, upload_id in items:
+        k = (upload_id, comp)
+        if k not in chosen or h.quantity == QUANTITY_PRESSURE_SPEED:
+            chosen[k] = (h, comp, upload_id)
+    return list(chosen.values())
+
+
+def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable) -> None:
+    """Ledger rows of new uploads, with running totals continued from each component's
+    last earlier row; components with stored rows after a new one are refreshed."""
+    values = batch_metrics(conn, batch, table)
+    values["hour_meter_end"] = batch.hour_meter_end
+    values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
+    ends = pd.to_datetime(pd.Series(batch.period_end), utc=True)
+    ends_ns = ends.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
+    order = _ordered(batch, ends_ns)
+    comp = batch.component_id[order]
+    since = pd.Series(ends_ns[order]).groupby(comp).min()
+    base, behind = _tails(conn, since)
+    sorted_values = {k: np.asarray(v)[order] for k, v in values.items()}
+    cum = _running_totals(comp, sorted_values)
+    for c in CUM_COLUMNS:
+        b = np.array([base.get(x, {}).get(c, 0.0) for x in comp.tolist()])
+        values[c] = np.empty(len(batch))
+        values[c][order] = cum[c] + b
+    rows = _ledger_tuples(conn, batch, values, order, raw=False)
+    insert_rows(conn, store.ledger, LEDGER_COLUMNS, rows)
+    if behind:
+        first = pd.Timestamp(int(since[list(behind)].min()), tz="UTC").to_pydatetime()
+        refresh_cumulative(conn, sorted(behind), first)
+
+
+def _tails(conn: Connection, since: pd.Series) -> tuple[dict[int, dict], set[int]]:
+    """Per component: the running totals of its last row before ``since`` (ns since the
+    epoch, per component) and whether it has stored rows at or after ``since``."""
+    base: dict[int, dict] = {}
+    behind: set[int] = set()
+    t, c = store.ledger, store.component
+    for bound_ns, comps in since.groupby(since.to_numpy()).groups.items():
+        bound = pd.Timestamp(int(bound_ns), tz="UTC").to_pydatetime()
+        ids = [int(x) for x in comps]
+        la, lb = t.alias("la"), t.alias("lb")
+        last = (
+            select(la.c.id)
+            .where(la.c.component_id == c.c.id, la.c.period_end < bound)
+            .order_by(la.c.period_end.desc(), la.c.upload_id.desc())
+            .limit(1)
+            .correlate(c)
+            .scalar_subquery()
+        )
+        later = select(lb.c.id).where(lb.c.component_id == c.c.id, lb.c.period_end >= bound)
+        pts = select(c.c.id.label("cid"), last.label("last_id"), later.exists().label("later"))
+        pts = pts.where(c.c.id.in_(ids)).subquery()
+        q = select(pts.c.cid, pts.c.later, *[t.c[k] for k in CUM_COLUMNS]).select_from(
+            pts.outerjoin(t, t.c.id == pts.c.last_id)
+        )
+        for row in conn.execute(q).all():
+            if row[1]:
+                behind.add(int(row[0]))
+            if row[2] is not None:
+                base[int(row[0])] = dict(zip(CUM_COLUMNS, row[2:], strict=True))
+    return base, behind
+
+
 # --- running totals -----------------------------------------------------------------
 
 
@@ -421,37 +613,32 @@ def refresh_cumulative(conn: Connection, component_ids: list[int], since) -> Non
         conn.execute(select(*cols).where(t.c.component_id.in_(ids), t.c.period_end >= since)).all(),
         columns=[c.name for c in cols],
     )
+    if later.empty:
+        return
     base = _base_totals(conn, ids, since)
     later = later.sort_values(["component_id", "period_end", "upload_id"])
     g = later.groupby("component_id")
     for cum, col in CUM_COLUMNS.items():
         later[cum] = g[col].cumsum() + later["component_id"].map(base[cum]).fillna(0.0)
-    params = later[["id", *CUM_COLUMNS]].rename(columns={"id": "b_id"}).to_dict("records")
-    if params:
-        from sqlalchemy import bindparam
-
-        stmt = (
-            update(t)
-            .where(t.c.id == bindparam("b_id"))
-            .values(**{c: bindparam(c) for c in CUM_COLUMNS})
-        )
-        conn.execute(stmt, params)
+    rows = list(zip(*[later[c].tolist() for c in CUM_COLUMNS], later["id"].tolist(), strict=True))
+    update_rows(conn, t, "id", list(CUM_COLUMNS), rows)
 
 
 def _base_totals(conn: Connection, ids: list[int], since) -> pd.DataFrame:  # noqa: ANN001
-    """Running totals of each component's last ledger row before ``since``."""
-    t = store.ledger
+    """Running totals of each component's last ledger row before ``since`` (one seek each)."""
+    t, c = store.ledger, store.component
+    la = t.alias("la")
     last = (
-        select(t.c.component_id, func.max(t.c.period_end).label("pe"))
-        .where(t.c.component_id.in_(ids), t.c.period_end < since)
-        .group_by(t.c.component_id)
-        .subquery()
+        select(la.c.id)
+        .where(la.c.component_id == c.c.id, la.c.period_end < since)
+        .order_by(la.c.period_end.desc(), la.c.upload_id.desc())
+        .limit(1)
+        .correlate(c)
+        .scalar_subquery()
     )
-    q = select(t.c.component_id, t.c.upload_id, *[t.c[c] for c in CUM_COLUMNS]).join(
-        last, (last.c.component_id == t.c.component_id) & (last.c.pe == t.c.period_end)
-    )
-    df = pd.DataFrame(conn.execute(q).all(), columns=["component_id", "upload_id", *CUM_COLUMNS])
-    df = df.sort_values("upload_id").drop_duplicates("component_id", keep="last")
+    pts = select(c.c.id.label("cid"), last.label("last_id")).where(c.c.id.in_(ids)).subquery()
+    q = select(t.c.component_id, *[t.c[k] for k in CUM_COLUMNS]).join(pts, pts.c.last_id == t.c.id)
+    df = pd.DataFrame(conn.execute(q).all(), columns=["component_id", *CUM_COLUMNS])
     return df.set_index("component_id")
 
 
@@ -461,49 +648,50 @@ def _base_totals(conn: Connection, ids: list[int], since) -> pd.DataFrame:  # no
 def recompute(conn: Connection, progress: Callable[[int, int], None] | None = None) -> int:
     """Rebuild the whole ledger from the stored histograms; return the row count."""
     conn.execute(delete(store.ledger))
-    comps = queries.components_frame(conn).set_index("component_id")
-    ids = comps.index.tolist()
+    table = component_table(conn)
+    ids = sorted(table.model_of)
     written = 0
     for start in range(0, len(ids), RECOMPUTE_CHUNK):
-        chunk = ids[start : start + RECOMPUTE_CHUNK]
-        rows = _recompute_rows(conn, chunk, comps)
-        if not rows.empty:
-            conn.execute(store.ledger.insert(), rows.to_dict("records"))
-            written += len(rows)
+        written += _rebuild(conn, ids[start : start + RECOMPUTE_CHUNK], table)
         if progress is not None:
             progress(min(start + RECOMPUTE_CHUNK, len(ids)), len(ids))
     return written
 
 
-def _recompute_rows(conn: Connection, chunk: list[int], comps: pd.DataFrame) -> pd.DataFrame:
-    hs, upload_ids = stored_histograms(conn, chunk)
-    if not hs:
-        return pd.DataFrame()
-    items = _select_for_ledger([(h, c, k) for (h, c), k in zip(hs, upload_ids, strict=True)])
-    rows = _rows_for(conn, items, comps)
-    rows = rows.sort_values(["component_id", "period_end", "upload_id"], kind="stable")
-    g = rows.groupby("component_id")
-    for cum, col in CUM_COLUMNS.items():
-        rows[cum] = g[col].cumsum()
-    return rows
+def _rebuild(conn: Connection, chunk: list[int], table: ComponentTable) -> int:
+    """Write the ledger rows of some components (none stored yet) from their histograms."""
+    q = text(STORED_SQL).bindparams(bindparam("ids", expanding=True))
+    rows = conn.execute(q, {"ids": [int(c) for c in chunk]}).all()
+    if not rows:
+        return 0
+    batch = batch_from_rows(rows)  # in ledger order already
+    values = batch_metrics(conn, batch, table)
+    values["hour_meter_end"] = batch.hour_meter_end
+    values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
+    values.update(_running_totals(batch.component_id, values))
+    order = np.arange(len(batch))
+    rows = _ledger_tuples(conn, batch, values, order, raw=True)
+    insert_rows(conn, store.ledger, LEDGER_COLUMNS, rows)
+    return len(batch)
 
 
-def rebuild_components(conn: Connection, comp_ids: list[int], comps: pd.DataFrame) -> None:
+def rebuild_components(conn: Connection, comp_ids: list[int], table: ComponentTable) -> None:
     """Delete and rewrite the ledger rows of some components from their histograms."""
     conn.execute(delete(store.ledger).where(store.ledger.c.component_id.in_(comp_ids)))
-    rows = _recompute_rows(conn, comp_ids, comps)
-    if not rows.empty:
-        conn.execute(store.ledger.insert(), rows.to_dict("records"))
+    _rebuild(conn, comp_ids, table)
 
 
 def stored_histograms(conn: Connection, component_ids: list[int]) -> tuple[list, list]:
-    """Stored histograms of some components as (Histogram, component_id) with upload ids."""
+    """Stored histograms of some components as (Histogram, component_id) with upload ids.
+
+    One :class:`Histogram` per row: for detail views and checks, not for bulk work.
+    """
     t, u = store.histogram, store.upload
     q = (
         select(t, u.c.hour_meter_start, u.c.hour_meter_end, u.c.period_end.label("u_end"))
         .join(u, u.c.id == t.c.upload_id)
         .where(t.c.component_id.in_(component_ids))
-        .order_by(t.c.component_id, u.c.period_end, t.c.upload_id)
+        .order_by(t.c.component_id, u.c.period_end, t.c.upload_id, t.c.id)
     )
     out, keys = [], []
     for r in conn.execute(q).mappings():
