@@ -30,6 +30,10 @@ every week, earliest-due-date list scheduling minimises the largest lateness
 tardiness", Research Report 43, Management Science Research Project, UCLA, 1955).
 Per-site limits and exchange stock are honoured but make the plan a good, not a
 proven best, one.
+
+The plan's types and column layouts live in :mod:`monitor.planning_types`, its
+plain-words reasons and output tables in :mod:`monitor.planning_report`; every
+public name of both is importable from here.
 """
 
 from __future__ import annotations
@@ -37,132 +41,53 @@ from __future__ import annotations
 import math
 from collections import Counter
 from collections.abc import Mapping
-from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import date, datetime
 from types import MappingProxyType
 
 import numpy as np
 import pandas as pd
 
-ESTIMATE_NOTICE = (
-    "All dates and hours in this plan are estimates from logged loads and wear trends. "
-    "The maker's service limits, local codes and qualified technicians decide when a "
-    "pump or motor is rebuilt. Pressurised hydraulic systems are dangerous: only "
-    "trained people should work on them, after isolating and relieving all pressure."
+from monitor.planning_report import (
+    assignment_rows,
+    build_plan,
+    capacity_frame,
+    plan_summary,
+    stock_frame,
+    unplanned_rows,
 )
-"""Plain-words notice every user-facing view or export of a plan must carry."""
-
-ALL_SITES = "(all sites)"
-"""Value of ``site`` in the fleet-wide rows of :attr:`Plan.capacity`."""
-
-_ID = ("unit", "site", "position", "component_model")
-STATUS_COLUMNS = (*_ID, "remaining_h", "utilisation_h_per_day", "due_date", "status", "limiting")
-"""Columns the fleet-status table must have (the stable ``rank`` keys)."""
-
-ASSIGNMENT_COLUMNS = (
-    "downtime", *_ID, "week", "week_start", "due_date", "due_week", "remaining_h",
-    "paired_with", "late_weeks", "late_days", "reason",
-)  # fmt: skip
-LATE_COLUMNS = (*_ID, "due_date", "week", "week_start", "late_weeks", "late_days", "reason")
-UNPLANNED_COLUMNS = (*_ID, "due_date", "remaining_h", "paired_with", "reason")
-UNSCHEDULED_COLUMNS = (*_ID, "remaining_h", "reason")
-CAPACITY_COLUMNS = ("week", "week_start", "site", "used", "capacity")
-STOCK_COLUMNS = tuple(
-    "week week_start component_model in_stock_at_start used returned in_stock_at_end".split()
+from monitor.planning_types import (
+    ALL_SITES,
+    ASSIGNMENT_COLUMNS,
+    CAPACITY_COLUMNS,
+    ESTIMATE_NOTICE,
+    ID_COLUMNS,
+    LATE_COLUMNS,
+    STATUS_COLUMNS,
+    STOCK_COLUMNS,
+    UNPLANNED_COLUMNS,
+    UNSCHEDULED_COLUMNS,
+    Downtime,
+    Plan,
+    PlanSettings,
 )
 
-
-@dataclass(frozen=True)
-class PlanSettings:
-    """The validated settings a plan was made with.
-
-    Attributes
-    ----------
-    as_of : datetime.date
-        First day of week 0.
-    horizon_weeks : int
-        Number of weeks planned [weeks].
-    capacity_per_week : int
-        Fleet-wide rebuild slots per week [rebuilds/week].
-    site_capacity : Mapping[str, int]
-        Extra per-site limits [rebuilds/week]; sites not listed have only the
-        fleet-wide limit.
-    exchange_stock : Mapping[str, int]
-        Exchange units in stock on the as-of date per component model [units];
-        models not listed are unlimited.
-    turnaround_days : Mapping[str, float]
-        Days until a removed core is back in stock, per stocked model [d].
-    pair_within_h : float or None
-        Pairing window [h]; ``None`` turns pairing off.
-    """
-
-    as_of: date
-    horizon_weeks: int
-    capacity_per_week: int
-    site_capacity: Mapping[str, int] = field(default_factory=lambda: MappingProxyType({}))
-    exchange_stock: Mapping[str, int] = field(default_factory=lambda: MappingProxyType({}))
-    turnaround_days: Mapping[str, float] = field(default_factory=lambda: MappingProxyType({}))
-    pair_within_h: float | None = 500.0
-
-    def week_start(self, week: int) -> date:
-        """First day of ``week`` (week 0 starts on the as-of date)."""
-        return self.as_of + timedelta(days=7 * int(week))
-
-    @property
-    def horizon_end(self) -> date:
-        """First day after the horizon."""
-        return self.week_start(self.horizon_weeks)
-
-
-@dataclass(frozen=True)
-class Plan:
-    """A rebuild plan and everything needed to explain it.
-
-    Attributes
-    ----------
-    settings : PlanSettings
-        The settings used.
-    assignments : pandas.DataFrame
-        One row per planned rebuild, columns :data:`ASSIGNMENT_COLUMNS`, sorted by
-        week, then downtime. Components sharing a downtime have the same
-        ``downtime`` number and ``week``; ``paired_with`` names the other
-        positions ("" when alone). ``late_weeks`` [weeks] counts weeks after the due
-        week; ``late_days`` [d] is the days from the due date to the week start
-        (also > 0 for a component already past due on the as-of date).
-        ``reason`` says in plain words why this week.
-    capacity : pandas.DataFrame
-        Slots used per week, columns :data:`CAPACITY_COLUMNS`; ``site`` is
-        :data:`ALL_SITES` for the fleet-wide limit; ``capacity`` is ``<NA>`` for a
-        site without its own limit.
-    stock : pandas.DataFrame
-        Exchange units per stocked model and week, columns :data:`STOCK_COLUMNS`.
-    late : pandas.DataFrame
-        Planned rebuilds after their due date, columns :data:`LATE_COLUMNS`.
-    unplanned : pandas.DataFrame
-        Components due within the horizon for which no week has room, columns
-        :data:`UNPLANNED_COLUMNS`.
-    unscheduled : pandas.DataFrame
-        Components that cannot be placed by date (no utilisation, or no estimate),
-        columns :data:`UNSCHEDULED_COLUMNS`.
-    beyond_horizon : int
-        Number of components with a due date after the horizon (not planned).
-    """
-
-    settings: PlanSettings
-    assignments: pd.DataFrame
-    capacity: pd.DataFrame
-    stock: pd.DataFrame
-    late: pd.DataFrame
-    unplanned: pd.DataFrame
-    unscheduled: pd.DataFrame
-    beyond_horizon: int
-
-    @property
-    def max_late_days(self) -> int:
-        """Largest lateness of a planned rebuild [d] (0 when all are on time)."""
-        if self.assignments.empty:
-            return 0
-        return int(self.assignments["late_days"].max())
+__all__ = [
+    "ALL_SITES",
+    "ASSIGNMENT_COLUMNS",
+    "CAPACITY_COLUMNS",
+    "ESTIMATE_NOTICE",
+    "ID_COLUMNS",
+    "LATE_COLUMNS",
+    "STATUS_COLUMNS",
+    "STOCK_COLUMNS",
+    "UNPLANNED_COLUMNS",
+    "UNSCHEDULED_COLUMNS",
+    "Plan",
+    "PlanSettings",
+    "make_settings",
+    "plan_rebuilds",
+    "plan_summary",
+]
 
 
 # --- settings and input checks ------------------------------------------------------
@@ -301,16 +226,6 @@ def _prepare(status: pd.DataFrame, as_of: date) -> pd.DataFrame:
 # --- downtimes ------------------------------------------------------------------------
 
 
-@dataclass
-class _Downtime:
-    members: list[int]  # row labels of the prepared table; members[0] is the anchor
-    site: str
-    models: Counter
-    key: tuple
-    due_week: int
-    note: str = ""
-
-
 def _sort_key(rows: list, i: int) -> tuple:
     row = rows[i]
     due = row.due_days if not math.isnan(row.due_days) else math.inf
@@ -318,9 +233,9 @@ def _sort_key(rows: list, i: int) -> tuple:
     return (due, rem, row.unit, row.position)
 
 
-def _downtime(rows: list, members: list[int], note: str = "") -> _Downtime:
+def _downtime(rows: list, members: list[int], note: str = "") -> Downtime:
     anchor = rows[members[0]]
-    return _Downtime(
+    return Downtime(
         members=members,
         site=anchor.site,
         models=Counter(rows[i].component_model for i in members),
@@ -357,7 +272,7 @@ def _room(settings: PlanSettings, site: str) -> int:
     return min(settings.capacity_per_week, settings.site_capacity.get(site, math.inf))
 
 
-def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings) -> list[_Downtime]:
+def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings) -> list[Downtime]:
     """Keep a group as one downtime unless no single week could ever hold it."""
     group = _downtime(rows, members)
     room = _room(settings, group.site)
@@ -375,11 +290,11 @@ def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings)
     return [_downtime(rows, [i], note) for i in due]
 
 
-def _downtimes(rows: list, settings: PlanSettings) -> list[_Downtime]:
+def _downtimes(rows: list, settings: PlanSettings) -> list[Downtime]:
     by_unit: dict[str, list[int]] = {}
     for i, row in enumerate(rows):
         by_unit.setdefault(row.unit, []).append(i)
-    out: list[_Downtime] = []
+    out: list[Downtime] = []
     for unit_rows in by_unit.values():
         for members in _unit_downtimes(rows, unit_rows, settings):
             out.extend(_split_if_never_fits(rows, members, settings))
@@ -404,7 +319,7 @@ class _Shop:
     def _return_week(self, model: str, week: int) -> int:
         return week + max(1, int(self.settings.turnaround_days[model] // 7))
 
-    def blockers(self, d: _Downtime, week: int) -> list[str]:
+    def blockers(self, d: Downtime, week: int) -> list[str]:
         """Why ``d`` does not fit in ``week`` (empty when it fits)."""
         s, k, out = self.settings, len(d.members), []
         if self.fleet_used[week] + k > s.capacity_per_week:
@@ -419,7 +334,7 @@ class _Shop:
                     out.append(f"no exchange unit of {model} free")
         return out
 
-    def book(self, d: _Downtime, week: int) -> None:
+    def book(self, d: Downtime, week: int) -> None:
         k = len(d.members)
         self.fleet_used[week] += k
         self.site_used[d.site][week] += k
@@ -433,7 +348,7 @@ class _Shop:
                     self.net[model][back:] += n
 
 
-def _choose_week(shop: _Shop, d: _Downtime) -> tuple[int | None, str]:
+def _choose_week(shop: _Shop, d: Downtime) -> tuple[int | None, str]:
     """Latest week with room up to the due week, else the earliest after it."""
     h = shop.settings.horizon_weeks
     for week in range(d.due_week, -1, -1):
@@ -451,128 +366,7 @@ def _choose_week(shop: _Shop, d: _Downtime) -> tuple[int | None, str]:
     return None, f"no week of the {h}-week horizon has room ({'; '.join(reasons)})"
 
 
-# --- explanations and output frames ---------------------------------------------------
-
-
-def _hours(value: float) -> str:
-    return "no estimate" if math.isnan(value) else f"{value:,.0f} h"
-
-
-def _lateness(due: date | None, due_days: float, week: int, settings: PlanSettings) -> tuple:
-    if due is None:
-        return 0, 0
-    due_week = max(0, int(due_days // 7))
-    late_days = max(0, (settings.week_start(week) - due).days)
-    return max(0, week - due_week), late_days
-
-
-def _member_reason(rows: list, d: _Downtime, i: int, how: str, s: PlanSettings) -> str:
-    row, anchor = rows[i], rows[d.members[0]]
-    others = [rows[j].position for j in d.members if j != i]
-    due = "no due date" if row.due_date is None else f"due {row.due_date.isoformat()}"
-    if i == d.members[0]:
-        text = f"{row.position}: {due} (week {d.due_week}); {how}."
-        if row.due_days < 0:
-            text = f"{row.position}: already past its due date {row.due_date} on the as-of date; "
-            text += f"{how}."
-        elif row.remaining_h <= 0:
-            text = f"{row.position}: no hours left, due now; {how}."
-        if others:
-            text += (
-                f" Shares one downtime with {', '.join(others)}: remaining hours within "
-                f"{s.pair_within_h:,.0f} h of this loop's {_hours(row.remaining_h)}."
-            )
-    else:
-        text = (
-            f"{row.position}: {due}, {_hours(row.remaining_h)} left; done with "
-            f"{anchor.position} ({_hours(anchor.remaining_h)} left) in one downtime because "
-            f"the difference is within {s.pair_within_h:,.0f} h."
-        )
-    return f"{text} {d.note}".strip()
-
-
-def _assignment_rows(
-    rows: list, d: _Downtime, number: int, week: int, how: str, s: PlanSettings
-) -> list[dict]:
-    out = []
-    for i in d.members:
-        row = rows[i]
-        late_weeks, late_days = _lateness(row.due_date, row.due_days, week, s)
-        own_due_week = pd.NA if math.isnan(row.due_days) else max(0, int(row.due_days // 7))
-        out.append(
-            {
-                "downtime": number,
-                "unit": row.unit,
-                "site": row.site,
-                "position": row.position,
-                "component_model": row.component_model,
-                "week": week,
-                "week_start": s.week_start(week),
-                "due_date": row.due_date,
-                "due_week": own_due_week,
-                "remaining_h": row.remaining_h,
-                "paired_with": ", ".join(rows[j].position for j in d.members if j != i),
-                "late_weeks": late_weeks,
-                "late_days": late_days,
-                "reason": _member_reason(rows, d, i, how, s),
-            }
-        )
-    return out
-
-
-def _unplanned_rows(rows: list, d: _Downtime, how: str, s: PlanSettings) -> list[dict]:
-    out = []
-    for i in d.members:
-        row = rows[i]
-        out.append(
-            {c: getattr(row, c) for c in (*_ID, "due_date", "remaining_h")}
-            | {
-                "paired_with": ", ".join(rows[j].position for j in d.members if j != i),
-                "reason": _member_reason(rows, d, i, how, s),
-            }
-        )
-    return out
-
-
-def _unscheduled(comp: pd.DataFrame, grouped: set[int]) -> pd.DataFrame:
-    rows = []
-    for i in comp.index[comp["due_days"].isna()]:
-        if i in grouped:
-            continue
-        row = comp.loc[i]
-        if math.isnan(row.remaining_h):
-            why = f"no remaining-hours estimate (status: {row.status or 'none'}); check its data"
-        else:
-            why = (
-                f"unscheduled: no utilisation - {_hours(row.remaining_h)} left but no recent "
-                "operating hours, so no due date can be set"
-            )
-        rows.append({c: row[c] for c in UNSCHEDULED_COLUMNS[:5]} | {"reason": why})
-    return pd.DataFrame(rows, columns=list(UNSCHEDULED_COLUMNS))
-
-
-def _capacity_frame(shop: _Shop, s: PlanSettings) -> pd.DataFrame:
-    rows = []
-    for week in range(s.horizon_weeks):
-        start = s.week_start(week)
-        rows.append((week, start, ALL_SITES, int(shop.fleet_used[week]), s.capacity_per_week))
-        for site in sorted(shop.site_used):
-            cap = s.site_capacity.get(site, pd.NA)
-            rows.append((week, start, site, int(shop.site_used[site][week]), cap))
-    frame = pd.DataFrame(rows, columns=list(CAPACITY_COLUMNS))
-    frame["capacity"] = frame["capacity"].astype("Int64")
-    return frame
-
-
-def _stock_frame(shop: _Shop, s: PlanSettings) -> pd.DataFrame:
-    rows = []
-    for model in sorted(shop.net):
-        for week in range(s.horizon_weeks):
-            end = int(shop.net[model][week])
-            used, back = int(shop.used[model][week]), int(shop.returned[model][week])
-            start = s.week_start(week)
-            rows.append((week, start, model, end + used, used, back, end))
-    return pd.DataFrame(rows, columns=list(STOCK_COLUMNS))
+# --- the plan ----------------------------------------------------------------------------
 
 
 def plan_rebuilds(
@@ -653,60 +447,11 @@ def plan_rebuilds(
     for d in downtimes:
         week, how = _choose_week(shop, d)
         if week is None:
-            unplanned.extend(_unplanned_rows(rows, d, how, s))
+            unplanned.extend(unplanned_rows(rows, d, how, s))
             continue
         shop.book(d, week)
         number += 1
-        planned.extend(_assignment_rows(rows, d, number, week, how, s))
-    return _assemble(comp, s, shop, downtimes, planned, unplanned)
-
-
-def _assemble(
-    comp: pd.DataFrame,
-    s: PlanSettings,
-    shop: _Shop,
-    downtimes: list[_Downtime],
-    planned: list[dict],
-    unplanned: list[dict],
-) -> Plan:
-    assignments = pd.DataFrame(planned, columns=list(ASSIGNMENT_COLUMNS))
-    assignments = assignments.sort_values(["week", "downtime", "position"], kind="stable")
-    assignments = assignments.reset_index(drop=True)
-    for col in ("downtime", "week", "late_weeks", "late_days"):
-        assignments[col] = assignments[col].astype("int64")
-    assignments["due_week"] = assignments["due_week"].astype("Int64")
-    assignments["remaining_h"] = assignments["remaining_h"].astype(float)
-    late = assignments.loc[assignments["late_days"] > 0, list(LATE_COLUMNS)]
-    grouped = {i for d in downtimes for i in d.members}
-    beyond = comp.index[(comp["due_days"] >= 7 * s.horizon_weeks) & ~comp.index.isin(grouped)]
-    return Plan(
-        settings=s,
-        assignments=assignments,
-        capacity=_capacity_frame(shop, s),
-        stock=_stock_frame(shop, s),
-        late=late.reset_index(drop=True),
-        unplanned=pd.DataFrame(unplanned, columns=list(UNPLANNED_COLUMNS)),
-        unscheduled=_unscheduled(comp, grouped),
-        beyond_horizon=len(beyond),
-    )
-
-
-def plan_summary(plan: Plan) -> list[str]:
-    """Plain-words headline lines for a plan, ending with :data:`ESTIMATE_NOTICE`."""
-    s, a = plan.settings, plan.assignments
-    lines = [
-        f"Rebuild plan from {s.as_of.isoformat()} for {s.horizon_weeks} week(s), "
-        f"{s.capacity_per_week} rebuild slot(s) per week fleet-wide.",
-        f"{len(a)} rebuild(s) in {a['downtime'].nunique()} downtime(s) planned; "
-        f"{len(plan.late)} late (largest {plan.max_late_days} days); "
-        f"{len(plan.unplanned)} unplanned for lack of room.",
-    ]
-    if len(plan.unscheduled):
-        lines.append(
-            f"{len(plan.unscheduled)} component(s) cannot be placed by date "
-            "(no utilisation or no estimate)."
-        )
-    if plan.beyond_horizon:
-        lines.append(f"{plan.beyond_horizon} component(s) fall due after the horizon.")
-    lines.append(ESTIMATE_NOTICE)
-    return lines
+        planned.extend(assignment_rows(rows, d, number, week, how, s))
+    capacity = capacity_frame(s, shop.fleet_used, shop.site_used)
+    stock = stock_frame(s, shop.used, shop.returned, shop.net)
+    return build_plan(comp, s, downtimes, planned, unplanned, capacity, stock)
