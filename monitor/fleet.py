@@ -340,33 +340,42 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
         [L/min/h], remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high [h],
         case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``.
     """
-    records = inputs.to_dict("records")
+    used = [c for c in inputs.columns if c in _WEAR_KEYS]
+    records = inputs[used].to_dict("records")
     limits = [case_drain_limit_lpm(r) for r in records]
     res = np.full((len(records), 5), np.nan)
     count, step = np.zeros(len(records), int), np.zeros(len(records), bool)
     spans, cols = _reading_spans(readings)
-    lines: dict[object, tuple[float, float] | None] = {}
-    for i, row in enumerate(records):
-        span = spans.get(row["component_id"])
-        if span is None:
+    series = _wear_series(records, spans, cols)
+    trend_in, step_in, slow = [], [], set()
+    for i, (x, y) in series.items():
+        count[i] = x.size
+        if not (np.isfinite(x).all() and np.isfinite(y).all()) or not _valid_limit(limits[i]):
+            slow.add(i)  # the one-at-a-time path drops or rejects these as it always did
             continue
-        if row.get("oil_name") not in lines:
-            lines[row.get("oil_name")] = oil_viscosity_line(row)
-        x = cols[0][span]
-        y = normalised_case_drain(
-            cols[1][span], cols[2][span], cols[3][span], row, lines[row.get("oil_name")]
+        if x.size >= params.min_wear_readings and x.min() != x.max():
+            trend_in.append(i)
+        if x.size - 1 >= params.min_wear_readings and x[:-1].min() != x[:-1].max():
+            step_in.append(i)
+    fit = wear.theil_sen_batch([series[i][0] for i in trend_in], [series[i][1] for i in trend_in])
+    before = wear.theil_sen_batch(
+        [series[i][0][:-1] for i in step_in], [series[i][1][:-1] for i in step_in]
+    )
+    step_fit = dict(zip(step_in, before, strict=True))
+    for i, (slope, intercept, low, high) in zip(trend_in, fit, strict=True):
+        now = _now_fast(records[i], series[i][0])
+        level = intercept + slope * now
+        rem = (
+            (math.nan,) * 3
+            if limits[i] is None
+            else wear.remaining_wear_h(limits[i], level, slope, low, high)
         )
-        now = np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()])
-        trend = _fit(x, y, limits[i], now, params)
-        count[i], step[i] = x.size, case_drain_step(x, y, params)
-        if trend is not None:
-            res[i] = (
-                trend.level_now,
-                trend.slope,
-                trend.remaining_h,
-                trend.remaining_h_low,
-                trend.remaining_h_high,
-            )
+        res[i] = (level, slope, *rem)
+    for i, (x, y) in series.items():
+        if i in slow:
+            res[i], step[i] = _wear_one(x, y, limits[i], records[i], params)
+        else:
+            step[i] = _step_from_fit(x, y, step_fit.get(i), params)
     names = (
         "case_drain_level_lpm",
         "case_drain_slope_lpm_per_h",
@@ -379,6 +388,92 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     out["case_drain_limit_lpm"] = np.array([np.nan if v is None else v for v in limits], float)
     out["case_drain_step"] = step
     return out
+
+
+def _valid_limit(limit: float | None) -> bool:
+    return limit is None or (math.isfinite(limit) and limit > 0)
+
+
+_WEAR_KEYS = frozenset(
+    {
+        "component_id",
+        "now_hour_meter_end",
+        "m_name",
+        "m_case_drain_limit_lpm",
+        "m_case_drain_limit_factor",
+        "m_case_drain_new_lpm",
+        "m_case_drain_test_dp_bar",
+        "m_case_drain_test_temp_c",
+        "m_case_drain_flushing_lpm",
+        "oil_name",
+        "oil_iso_vg",
+        "oil_viscosity_index",
+        "oil_nu40_mm2s",
+        "oil_nu100_mm2s",
+    }
+)
+"""Columns of a status-inputs row that the wear trend reads."""
+
+
+def _now_fast(row: Mapping, x: np.ndarray) -> float:
+    """:func:`_now_hour_meter` for finite readings ``x``, without numpy's nanmax."""
+    last = _num(row.get("now_hour_meter_end")) or math.nan
+    top = float(x.max())
+    return top if math.isnan(last) else max(last, top)
+
+
+def _now_hour_meter(row: Mapping, x: np.ndarray) -> float:
+    return float(np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()]))
+
+
+def _wear_series(records: list[dict], spans: dict, cols: list[np.ndarray]) -> dict:
+    """Per component row with readings: (hour meter [h], normalised flow [L/min]).
+
+    Readings are normalised in one call per component model and oil."""
+    by_key: dict[tuple, list[int]] = {}
+    for i, row in enumerate(records):
+        if row["component_id"] in spans:
+            by_key.setdefault((row.get("m_name"), row.get("oil_name")), []).append(i)
+    out = {}
+    for idx in by_key.values():
+        row = records[idx[0]]
+        sl = [spans[records[i]["component_id"]] for i in idx]
+        take = np.concatenate([np.arange(s.start, s.stop) for s in sl])
+        y = normalised_case_drain(
+            cols[1][take], cols[2][take], cols[3][take], row, oil_viscosity_line(row)
+        )
+        pos = 0
+        for i, s in zip(idx, sl, strict=True):
+            k = s.stop - s.start
+            out[i] = (cols[0][s], y[pos : pos + k])
+            pos += k
+    return dict(sorted(out.items()))
+
+
+def _wear_one(x, y, limit, row, params) -> tuple[tuple, bool]:  # noqa: ANN001
+    """Trend values and step flag of one component, the plain way (odd inputs)."""
+    trend = _fit(x, y, limit, _now_hour_meter(row, x), params)
+    vals = (math.nan,) * 5
+    if trend is not None:
+        vals = (
+            trend.level_now,
+            trend.slope,
+            trend.remaining_h,
+            trend.remaining_h_low,
+            trend.remaining_h_high,
+        )
+    return vals, case_drain_step(x, y, params)
+
+
+def _step_from_fit(x, y, fit, params: StatusParams) -> bool:  # noqa: ANN001
+    """:func:`case_drain_step` with the Theil-Sen fit of the earlier readings given."""
+    if y.size < 2:
+        return False
+    if fit is not None:
+        level = fit[1] + fit[0] * x[-1]
+    else:
+        level = float(np.median(y[:-1]))
+    return bool(level > 0 and y[-1] > params.case_drain_step_factor * level)
 
 
 def _reading_spans(readings: pd.DataFrame) -> tuple[dict, list[np.ndarray]]:
@@ -455,7 +550,9 @@ def fleet_status(
     df = pd.concat([bearing_frame(inputs, params), wear_frame(inputs, readings, params)], axis=1)
     t = as_of_instant(as_of)
     last = pd.to_datetime(inputs["now_period_end"], utc=True)
-    df["last_upload_at"] = _objects([None if pd.isna(v) else v.to_pydatetime() for v in last])
+    stamps = last.array.to_pydatetime().astype(object)
+    stamps[last.isna().to_numpy()] = None
+    df["last_upload_at"] = _objects(list(stamps))
     df["data_age_days"] = (pd.Timestamp(t) - last).dt.total_seconds().to_numpy() / 86400.0
     df["has_cutoff"] = inputs["m_cutoff_bar"].notna().to_numpy()
     df["flags"] = _objects(_flags(df, params))
@@ -509,9 +606,19 @@ def _plain(v: object) -> object:
     return v
 
 
+def _plain_column(col: pd.Series) -> list:
+    """:func:`_plain` of every value of a column, with fast paths by dtype."""
+    if pd.api.types.is_float_dtype(col.dtype):
+        return [v if math.isfinite(v) else None for v in col.to_numpy(float).tolist()]
+    if pd.api.types.is_bool_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
+        return col.to_numpy().tolist()
+    return [v if type(v) is str else _plain(v) for v in col.tolist()]
+
+
 def rank_records(df: pd.DataFrame) -> list[dict]:
     """JSON-ready records with exactly :data:`RANK_COLUMNS` (NaN/inf -> None, ISO dates)."""
-    return [{k: _plain(rec[k]) for k in RANK_COLUMNS} for rec in df.to_dict("records")]
+    cols = [_plain_column(df[k]) for k in RANK_COLUMNS]
+    return [dict(zip(RANK_COLUMNS, vals, strict=True)) for vals in zip(*cols, strict=True)]
 
 
 # --- one unit in detail ----------------------------------------------------------------

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 from datetime import UTC, datetime, timedelta
 
+import numpy as np
 import pandas as pd
 from sqlalchemy import Connection, and_, func, literal, select
 
@@ -289,11 +290,20 @@ def readings_in_life(
         "test_pressure_bar",
         "oil_temp_c",
     ]
-    rows = [tuple(r) for r in conn.execute(q)]  # plain tuples: far faster into pandas
-    df = pd.DataFrame.from_records(rows, columns=cols)
-    for col in cols[1:]:
-        df[col] = pd.to_numeric(df[col]).astype(float)
+    values = np.array(_plain_rows(conn, q), dtype=float).reshape(-1, len(cols))
+    df = pd.DataFrame(values[:, 1:], columns=cols[1:])
+    df.insert(0, "component_id", values[:, 0].astype(np.int64))
     return df
+
+
+def _plain_rows(conn: Connection, q) -> list[tuple]:  # noqa: ANN001 - a select
+    """Rows of a query of plain numbers as the driver's tuples, without building Row
+    objects (most of the cost of a large read); the columns need no result conversion."""
+    res = conn.execute(q)
+    try:
+        return list(res.cursor.fetchall()) if res.cursor is not None else []
+    finally:
+        res.close()
 
 
 # --- per-unit detail ----------------------------------------------------------------

@@ -208,7 +208,13 @@ def theil_sen(
     return slope, intercept, float(slopes[lower]), float(slopes[upper])
 
 
-def _remaining(limit: float, level: float, slope: float, low: float, high: float) -> tuple:
+def remaining_wear_h(limit: float, level: float, slope: float, low: float, high: float) -> tuple:
+    """Hours until a fitted level reaches the limit, and the range from the slope bounds.
+
+    Parameters are the limit and level [L/min] and slope, low and high slope bound
+    [L/min per h]. Returns (remaining, remaining_low, remaining_high) [h]: 0 at or past
+    the limit, nan without growth (see :class:`WearTrend`).
+    """
     if math.isnan(slope) or math.isnan(level):
         return (math.nan,) * 3
     if level >= limit:
@@ -277,5 +283,102 @@ def case_drain_trend(
     slope, intercept, low, high = theil_sen(x, y, alpha)
     now = float(x.max()) if hour_meter_now_h is None else float(hour_meter_now_h)
     level = intercept + slope * now
-    rem = _remaining(limit_lpm, level, slope, low, high)
+    rem = remaining_wear_h(limit_lpm, level, slope, low, high)
     return WearTrend(slope, intercept, low, high, level, *rem, n=n)
+
+
+PAIR_BLOCK = 4_000_000
+"""Most pairwise slopes held at once by :func:`theil_sen_batch` (about 32 MB)."""
+
+
+def _tie_terms(v: np.ndarray) -> np.ndarray:
+    """Per row of ``v`` (k, n): sum over groups of equal values of t (t - 1) (2 t + 5)."""
+    k, n = v.shape
+    s = np.sort(v, axis=1)
+    new = np.ones((k, n), bool)
+    new[:, 1:] = s[:, 1:] != s[:, :-1]
+    run = np.cumsum(new, axis=1) - 1 + (np.arange(k) * n)[:, None]
+    t = np.bincount(run.ravel(), minlength=k * n).reshape(k, n).astype(np.int64)
+    return (t * (t - 1) * (2 * t + 5)).sum(axis=1)
+
+
+def _theil_sen_rows(x: np.ndarray, y: np.ndarray, z: float) -> np.ndarray:
+    """(k, 4) slope, intercept, low, high of k series of equal length n (rows of x, y)."""
+    k, n = x.shape
+    # every pair i < j once, as j = i + d for d = 1 .. n-1 (contiguous slices)
+    dx = np.concatenate([x[:, :-d] - x[:, d:] for d in range(1, n)], axis=1)
+    dy = np.concatenate([y[:, :-d] - y[:, d:] for d in range(1, n)], axis=1)
+    ok = dx != 0
+    if ok.all():
+        slopes = dy / dx
+    else:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            slopes = np.where(ok, dy / np.where(ok, dx, 1.0), np.inf)
+    slopes.sort(axis=1)
+    count = ok.sum(axis=1)
+    rows = np.arange(k)
+    c = np.maximum(count, 1)
+    mid_lo, mid_hi = slopes[rows, (c - 1) // 2], slopes[rows, c // 2]
+    slope = np.where(c % 2 == 1, mid_lo, (mid_lo + mid_hi) / 2.0)
+    intercept = np.median(y, axis=1) - slope * np.median(x, axis=1)
+    sigsq = (n * (n - 1) * (2 * n + 5) - _tie_terms(x) - _tie_terms(y)) / 18.0
+    sigma = np.sqrt(np.maximum(sigsq, 0.0))
+    upper = np.minimum(np.round((count - z * sigma) / 2.0).astype(np.int64), count - 1)
+    lower = np.maximum(np.round((count + z * sigma) / 2.0).astype(np.int64) - 1, 0)
+    low = np.where(sigsq < 0, np.nan, slopes[rows, np.clip(lower, 0, None)])
+    high = np.where(sigsq < 0, np.nan, slopes[rows, np.clip(upper, 0, None)])
+    out = np.column_stack([slope, intercept, low, high])
+    out[count == 0] = np.nan
+    return out
+
+
+def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0.95) -> np.ndarray:
+    """:func:`theil_sen` of many series at once, with the same results.
+
+    Parameters
+    ----------
+    xs, ys : list of array (n_i,)
+        Independent and dependent values of each series (finite, n_i >= 2), e.g. hour
+        meter [h] and normalised case-drain flow [L/min].
+    alpha : float, default 0.95
+        Confidence level of the slope interval [-], in (0, 1).
+
+    Returns
+    -------
+    numpy.ndarray (m, 4)
+        Per series: slope, intercept, slope_low, slope_high [y-unit per x-unit, y-unit,
+        ...]; a row of nan where all x of a series are equal.
+
+    Notes
+    -----
+    Series of equal length are stacked and their pairwise slopes taken over i < j
+    (``(y_i - y_j) / (x_i - x_j)`` for ``x_i != x_j`` is the slope of the ordered pair
+    with both signs flipped, so the same number), sorted once per row; median, intercept and
+    the rank interval then follow :func:`theil_sen` element by element.
+
+    References
+    ----------
+    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6).
+    """
+    if len(xs) != len(ys):
+        raise ValueError("xs and ys must hold the same number of series")
+    if not (0 < alpha < 1):
+        raise ValueError(f"alpha must be a confidence level in (0, 1), got {alpha!r}")
+    out = np.full((len(xs), 4), np.nan)
+    if not xs:
+        return out
+    z = float(norm.ppf((1.0 - max(alpha, 1.0 - alpha)) / 2.0))
+    sizes = np.array([np.size(x) for x in xs])
+    if np.any(sizes < 2) or any(np.shape(x) != np.shape(y) for x, y in zip(xs, ys, strict=True)):
+        raise ValueError("every series needs x and y of equal length >= 2")
+    for n in np.unique(sizes):
+        idx = np.flatnonzero(sizes == n)
+        step = max(1, PAIR_BLOCK // max(1, n * (n - 1) // 2))
+        for s in range(0, idx.size, step):
+            part = idx[s : s + step]
+            x = np.array([xs[i] for i in part], dtype=float)
+            y = np.array([ys[i] for i in part], dtype=float)
+            if not (np.isfinite(x).all() and np.isfinite(y).all()):
+                raise ValueError("x and y must be finite (drop missing readings first)")
+            out[part] = _theil_sen_rows(x, y, z)
+    return out

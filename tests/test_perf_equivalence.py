@@ -20,7 +20,7 @@ import pandas as pd
 import pytest
 from sqlalchemy import select
 
-from monitor import checks, ledger, oil, queries, service, store
+from monitor import checks, fleet, ledger, oil, queries, service, snapshot, store
 from monitor.demo import build_demo
 from monitor.ingest import parse_file
 
@@ -186,3 +186,56 @@ def test_batched_histogram_hashes_equal_one_at_a_time():
     assert {h.quantity for h in hs} == {"pressure", "pressure_speed"}
     assert checks.histogram_shas(hs) == [checks.histogram_sha(h) for h in hs]
     assert checks.histogram_shas([]) == []
+
+
+def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) -> pd.DataFrame:  # noqa: ANN001
+    """The wear columns with one trend and one step fit per component (the plain way)."""
+    rows = []
+    for row in inputs.to_dict("records"):
+        rd = readings[readings["component_id"] == row["component_id"]]
+        limit = fleet.case_drain_limit_lpm(row)
+        vals, step = (np.nan,) * 5, False
+        if not rd.empty:
+            x = rd["hour_meter"].to_numpy(float)
+            y = fleet.normalised_case_drain(
+                rd["case_drain_lpm"].to_numpy(float),
+                rd["test_pressure_bar"].to_numpy(float),
+                rd["oil_temp_c"].to_numpy(float),
+                row,
+                fleet.oil_viscosity_line(row),
+            )
+            vals, step = fleet._wear_one(x, y, limit, row, params)
+        rows.append((*vals, len(rd), np.nan if limit is None else limit, step))
+    cols = [
+        "case_drain_level_lpm",
+        "case_drain_slope_lpm_per_h",
+        "remaining_wear_h",
+        "remaining_wear_h_low",
+        "remaining_wear_h_high",
+        "n_wear_readings",
+        "case_drain_limit_lpm",
+        "case_drain_step",
+    ]
+    return pd.DataFrame(rows, columns=cols, index=inputs.index)
+
+
+@pytest.mark.parametrize("min_readings", [3, 6])
+def test_batched_wear_trends_equal_one_at_a_time(demo_store, min_readings):
+    engine = store.make_engine(demo_store.db_url)
+    t = fleet.as_of_instant(demo_store.as_of)
+    params = fleet.StatusParams(min_wear_readings=min_readings)
+    with engine.connect() as conn:
+        inputs = snapshot.status_inputs(conn, t, rate_window_h=500.0)
+        readings = snapshot.readings_in_life(conn, t)
+    engine.dispose()
+    # a step in one series and ties in another, so both branches are compared
+    readings = readings.copy()
+    first = readings["component_id"].iloc[0]
+    last_of_first = readings.index[readings["component_id"] == first][-1]
+    readings.loc[last_of_first, "case_drain_lpm"] *= 3.0
+    second = readings.index[readings["component_id"] != first][:4]
+    readings.loc[second, "hour_meter"] = readings.loc[second[0], "hour_meter"]
+    got = fleet.wear_frame(inputs, readings, params)
+    want = _wear_one_at_a_time(inputs, readings, params)
+    assert got["case_drain_step"].any() and got["remaining_wear_h"].notna().any()
+    pd.testing.assert_frame_equal(got[want.columns], want, check_dtype=False, rtol=0, atol=0)

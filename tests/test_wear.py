@@ -136,3 +136,47 @@ def test_trend_scales_with_units(slope, q0, k):
     assert b.slope == pytest.approx(k * a.slope, rel=1e-9)
     if math.isfinite(a.remaining_h):
         assert b.remaining_h == pytest.approx(a.remaining_h, rel=1e-6)
+
+
+def _series(seed: int, count: int) -> tuple[list, list]:
+    """Random series with ties in x and y, a few all-equal x, lengths 2..45."""
+    rng = np.random.default_rng(seed)
+    xs, ys = [], []
+    for s in range(count):
+        n = int(rng.integers(2, 46))
+        if s % 7 == 0:
+            x = np.full(n, 500.0)  # one distinct hour meter: no slope
+        elif s % 3 == 0:
+            x = rng.integers(0, 8, n).astype(float) * 100  # ties in x
+        else:
+            x = np.sort(rng.uniform(0, 3000, n))
+        y = np.round(1.5 + 4e-4 * x + rng.normal(0, 0.2, n), 1 if s % 2 else 6)
+        xs.append(x)
+        ys.append(y)
+    return xs, ys
+
+
+@pytest.mark.parametrize("alpha", [0.95, 0.9])
+def test_theil_sen_batch_equals_one_at_a_time(alpha):
+    # Oracle: wear.theil_sen (itself checked against scipy above), exactly, row by row
+    xs, ys = _series(11, 400)
+    got = wear.theil_sen_batch(xs, ys, alpha)
+    for i, (x, y) in enumerate(zip(xs, ys, strict=True)):
+        if np.unique(x).size < 2:
+            assert np.isnan(got[i]).all()
+            continue
+        np.testing.assert_array_equal(got[i], wear.theil_sen(x, y, alpha))
+
+
+def test_theil_sen_batch_small_blocks_and_errors(monkeypatch):
+    xs, ys = _series(12, 60)
+    whole = wear.theil_sen_batch(xs, ys)
+    monkeypatch.setattr(wear, "PAIR_BLOCK", 1)  # one series per block
+    np.testing.assert_array_equal(wear.theil_sen_batch(xs, ys), whole)
+    assert wear.theil_sen_batch([], []).shape == (0, 4)
+    with pytest.raises(ValueError, match="finite"):
+        wear.theil_sen_batch([np.array([0.0, 1.0, 2.0])], [np.array([1.0, np.nan, 2.0])])
+    with pytest.raises(ValueError, match="equal length >= 2"):
+        wear.theil_sen_batch([np.array([0.0])], [np.array([1.0])])
+    with pytest.raises(ValueError, match="alpha"):
+        wear.theil_sen_batch(xs, ys, alpha=1.5)
