@@ -227,6 +227,11 @@ def save_settings(engine: Engine, values: dict) -> dict:
     """
     merged = {**get_settings(engine), **values}
     if "status_limits" in values:
+        if not isinstance(values["status_limits"], dict):
+            raise DomainError(
+                "status_limits must give overdue_h, due_h and plan_h in hours, "
+                f"got {values['status_limits']!r}"
+            )
         merged["status_limits"] = {
             **get_settings(engine)["status_limits"],
             **values["status_limits"],
@@ -236,13 +241,18 @@ def save_settings(engine: Engine, values: dict) -> dict:
         raise DomainError(
             f"unknown setting(s) {', '.join(unknown)}: known are {', '.join(DEFAULT_SETTINGS)}"
         )
-    _status_params(merged)  # raises DomainError on a bad value
+    params = _status_params(merged)  # raises DomainError on a bad value
+    checked = {k: getattr(params, k) for k in values if k != "status_limits"}
+    if "status_limits" in values:
+        checked["status_limits"] = dict(params.status_limits)
     with store.transaction(engine) as conn:
-        queries.put_settings(conn, {k: merged[k] for k in values})
+        queries.put_settings(conn, checked)  # numbers stored as numbers, not as text
     return get_settings(engine)
 
 
 def _positive(settings: dict, key: str, what: str) -> float:
+    if isinstance(settings[key], bool):
+        raise DomainError(f"{key} must be a number ({what}), got {settings[key]!r}")
     try:
         v = float(settings[key])
     except (TypeError, ValueError):
@@ -263,6 +273,10 @@ def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
             f"(ISO 281 gives no factor a1 outside that range), got {r:g}"
         )
     limits = settings["status_limits"]
+    if not isinstance(limits, dict):
+        raise DomainError(
+            f"status_limits must give overdue_h, due_h and plan_h in hours, got {limits!r}"
+        )
     try:
         lim = {k: float(limits[k]) for k in ("overdue_h", "due_h", "plan_h")}
     except (KeyError, TypeError, ValueError):

@@ -17,6 +17,8 @@ from monitor import planning, queries, store
 from monitor.service import DomainError, _today, fleet_status
 
 PLAN_KEY = "plan"
+MAX_HORIZON_WEEKS = 260
+_UNSET = object()
 DEFAULT_PLAN_SETTINGS: dict = {
     "horizon_weeks": 12,
     "capacity_per_week": 3,
@@ -45,9 +47,19 @@ def _checked(values: dict) -> dict:
             f"unknown plan setting(s) {', '.join(unknown)}: known are "
             f"{', '.join(DEFAULT_PLAN_SETTINGS)}"
         )
+    for key in ("site_capacity", "exchange_stock"):
+        if values.get(key) is not None and not isinstance(values[key], dict):
+            raise DomainError(
+                f"{key} must map names to whole numbers, e.g. {{'DS-P90': 2}}, got {values[key]!r}"
+            )
+    horizon = values.get("horizon_weeks")
+    if isinstance(horizon, (int, float)) and horizon > MAX_HORIZON_WEEKS:
+        raise DomainError(
+            f"horizon_weeks must be at most {MAX_HORIZON_WEEKS} weeks (five years), got {horizon!r}"
+        )
     try:
         planning.make_settings(_today(), **_plan_kwargs(values))
-    except ValueError as err:
+    except (ValueError, TypeError) as err:
         raise DomainError(f"plan settings rejected: {err}") from None
     return values
 
@@ -79,17 +91,31 @@ def make_plan(
     as_of: date | None = None,
     *,
     reliability_pct: float | None = None,
-    **overrides,
+    horizon_weeks: int | None = None,
+    capacity_per_week: int | None = None,
+    site_capacity: dict | None = None,
+    exchange_stock: dict | None = None,
+    turnaround_days: float | dict | None = None,
+    pair_within_h: float | None | object = _UNSET,
+    **unknown: object,
 ) -> planning.Plan:
     """The rebuild plan at ``as_of`` (default today) with the stored settings.
 
-    Keyword overrides (``horizon_weeks``, ``capacity_per_week``, ``site_capacity``,
-    ``exchange_stock``, ``turnaround_days``, ``pair_within_h``) apply to this plan only.
+    Arguments given (not None) override the stored settings for this plan only;
+    ``pair_within_h=None`` turns pairing off for this plan.
     """
-    settings = {
-        **get_plan_settings(engine),
-        **{k: v for k, v in overrides.items() if v is not None},
-    }
+    if unknown:
+        _checked(unknown)  # raises DomainError naming the unknown setting(s)
+    given = dict(
+        horizon_weeks=horizon_weeks,
+        capacity_per_week=capacity_per_week,
+        site_capacity=site_capacity,
+        exchange_stock=exchange_stock,
+        turnaround_days=turnaround_days,
+    )
+    settings = {**get_plan_settings(engine), **{k: v for k, v in given.items() if v is not None}}
+    if pair_within_h is not _UNSET:
+        settings["pair_within_h"] = pair_within_h
     _checked(settings)
     as_of = as_of or _today()
     status = fleet_status(engine, as_of, reliability_pct=reliability_pct)

@@ -22,6 +22,8 @@ PURE = [
     "lifecycle",
     "fleet",
     "planning",
+    "planning_types",
+    "planning_report",
 ]
 FORBIDDEN_EVERYWHERE_PURE = {"sqlalchemy", "streamlit", "click", "alembic", "psycopg"}
 NO_PANDAS = {"bearings", "oil", "spectrum", "wear", "relief", "hydraulics", "lifecycle"}

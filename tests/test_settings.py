@@ -8,9 +8,9 @@ limits, at least three wear readings for a trend, positive windows, non-negative
 capacities and stock, and a turnaround for every stocked model are the service's own
 rules (common practice, no source).
 
-Tests marked xfail(strict=True) pin defects found while writing these tests: each
-fails today with the named exception and turns into an error once fixed, so the mark
-is removed with the fix.
+Defects these tests found (settings of the wrong type, an unbounded horizon, pairing
+that could not be turned off for one plan) are fixed; their tests stay as regression
+checks.
 """
 
 from __future__ import annotations
@@ -117,17 +117,11 @@ def test_the_error_says_what_is_expected(engine):
         service.save_settings(engine, {"colour": "red"})
 
 
-@pytest.mark.xfail(
-    strict=True, raises=TypeError, reason="service.save_settings lets a TypeError through"
-)
 def test_band_limits_that_are_not_a_mapping_give_a_domain_error(engine):
     with pytest.raises(service.DomainError, match="status_limits"):
         service.save_settings(engine, {"status_limits": 5})
 
 
-@pytest.mark.xfail(
-    strict=True, raises=pytest.fail.Exception, reason="save_settings stores True as 1 day"
-)
 def test_a_yes_no_value_is_not_a_number_of_days(engine):
     with pytest.raises(service.DomainError, match="stale_days"):
         service.save_settings(engine, {"stale_days": True})
@@ -195,19 +189,11 @@ def test_invalid_plan_setting_names_the_field_and_changes_nothing(engine, values
     assert sp.get_plan_settings(engine) == before
 
 
-@pytest.mark.xfail(
-    strict=True, raises=TypeError, reason="service_plan lets a TypeError through for a list"
-)
 def test_stock_that_is_not_a_mapping_gives_a_domain_error(engine):
     with pytest.raises(service.DomainError, match="exchange_stock"):
         sp.save_plan_settings(engine, {"exchange_stock": [1, 2]})
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=pytest.fail.Exception,
-    reason="no upper bound: a later plan overflows the date",
-)
 def test_an_absurd_horizon_is_refused_when_saved(engine):
     with pytest.raises(service.DomainError, match="horizon_weeks"):
         sp.save_plan_settings(engine, {"horizon_weeks": 10**9})
@@ -260,11 +246,6 @@ def test_a_bad_override_is_refused_and_stores_nothing(engine, kwargs, field):
     assert stored(engine) == before_raw
 
 
-@pytest.mark.xfail(
-    strict=True,
-    raises=AssertionError,
-    reason="limitation: make_plan drops None overrides, so pairing cannot be turned off",
-)
 def test_pairing_can_be_turned_off_for_one_plan(engine):
     plan = sp.make_plan(engine, AS_OF, pair_within_h=None)
     assert plan.settings.pair_within_h is None
