@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 from sqlalchemy import Connection, Table
 
 from monitor.records import QUANTITY_PRESSURE_SPEED, Histogram
@@ -116,11 +117,42 @@ STORED_SQL = (
     "u.hour_meter_start, u.hour_meter_end, u.period_end "
     "FROM histogram h JOIN upload u ON u.id = h.upload_id "
     "WHERE h.component_id IN :ids "
-    "ORDER BY h.component_id, u.period_end, h.upload_id, h.id"
+    "ORDER BY h.component_id, h.quantity, h.period_start"
 )
-"""Stored histograms of some components joined to their uploads, in ledger order.
+"""Stored histograms of some components joined to their uploads.
 
-Read untyped (raw driver values), so timestamps are not parsed per row."""
+Read untyped (raw driver values), so timestamps are not parsed per row, and in the
+order of the ``(component_id, quantity, period_start)`` index, so the database sorts
+nothing; :func:`ledger_columns` puts the rows in ledger order."""
+
+
+def _period_key(values: list) -> np.ndarray:
+    """Sortable int64 keys [ns] of stored period ends (text in SQLite, datetimes elsewhere)."""
+    ends = pd.to_datetime(pd.Series(values), utc=True)
+    return ends.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
+
+
+def ledger_columns(rows: list) -> dict[str, list | tuple]:
+    """:data:`STORED_SQL` rows as columns, sorted by component, period end, upload and
+    histogram id.
+
+    Rows of one component and quantity come in period order already (stored periods of
+    a drive loop never overlap), so the common case only checks that."""
+    cols = dict(zip(STORED_COLUMNS, zip(*rows, strict=True), strict=True))
+    comp = np.array(cols["component_id"], dtype=np.int64)
+    ends = np.array(cols["period_end"], dtype=object)
+    same = comp[1:] == comp[:-1]
+    if np.all(comp[1:] >= comp[:-1]) and bool(np.all((ends[1:] > ends[:-1]) | ~same)):
+        return cols
+    order = np.lexsort(
+        (
+            np.array(cols["id"], dtype=np.int64),
+            np.array(cols["upload_id"], dtype=np.int64),
+            _period_key(cols["period_end"]),
+            comp,
+        )
+    ).tolist()
+    return {k: [v[i] for i in order] for k, v in cols.items()}
 
 
 def _ledger_choice(comp: np.ndarray, upload: np.ndarray, is_ps: np.ndarray) -> np.ndarray:
@@ -143,50 +175,70 @@ def _unblob(blobs: list, k: int, width: int) -> np.ndarray:
     return np.frombuffer(b"".join(blobs), dtype="<f8").reshape(k, width)
 
 
+def _pick(col: tuple, idx: np.ndarray | None) -> list | tuple:
+    """Values of a column at some positions (all of them when ``idx`` is None)."""
+    return col if idx is None else [col[i] for i in idx.tolist()]
+
+
 def batch_from_rows(rows: list) -> Batch:
-    """A batch from :data:`STORED_SQL` rows: one histogram per (upload, component)."""
-    cols = dict(zip(STORED_COLUMNS, zip(*rows, strict=True), strict=True))
+    """A batch from :data:`STORED_SQL` rows (any order): one histogram per (upload,
+    component), in ledger order."""
+    cols = ledger_columns(rows)
     comp = np.array(cols["component_id"], dtype=np.int64)
     upload = np.array(cols["upload_id"], dtype=np.int64)
     quantity = np.array(cols["quantity"], dtype=object)
-    keep = _ledger_choice(comp, upload, quantity == QUANTITY_PRESSURE_SPEED)
-    n_p = np.array(cols["n_pressure"], dtype=np.int64)[keep]
-    n_s = np.array(cols["n_speed"], dtype=np.int64)[keep]
-    is_ps = (quantity[keep] == QUANTITY_PRESSURE_SPEED).astype(np.int64)
-    code = (is_ps << 40) | (n_p << 20) | n_s
-    groups = []
-    for c in np.unique(code):
-        rows_g = np.flatnonzero(code == c)
-        src = keep[rows_g]
-        k, p, s = rows_g.size, int(n_p[rows_g[0]]), int(n_s[rows_g[0]])
-        pb = _unblob([cols["pressure_bands"][i] for i in src], k, 2 * p)
-        hours = _unblob([cols["hours"][i] for i in src], k, p * max(s, 1))
-        s_lo = s_hi = None
-        if s:
-            sb = _unblob([cols["speed_bands"][i] for i in src], k, 2 * s)
-            s_lo, s_hi = sb[:, :s], sb[:, s:]
-            hours = hours.reshape(k, p, s)
-        groups.append(
-            Group(
-                quantity=QUANTITY_PRESSURE_SPEED if c >> 40 else cols["quantity"][src[0]],
-                rows=rows_g,
-                p_lo=pb[:, :p],
-                p_hi=pb[:, p:],
-                s_lo=s_lo,
-                s_hi=s_hi,
-                hours=hours,
-                mean_speed=np.array([cols["mean_speed_rpm"][i] for i in src], dtype=float),
-            )
-        )
-    period_end = cols["period_end"]
+    is_ps_all = quantity == QUANTITY_PRESSURE_SPEED
+    keep = _ledger_choice(comp, upload, is_ps_all)
+    every = keep.size == comp.size  # the common case: one histogram per upload
+    n_p = np.array(cols["n_pressure"], dtype=np.int64)
+    n_s = np.array(cols["n_speed"], dtype=np.int64)
+    if not every:
+        n_p, n_s = n_p[keep], n_s[keep]
+    code = (is_ps_all[keep].astype(np.int64) << 40) | (n_p << 20) | n_s
+    codes = np.unique(code)
+    groups = [_stored_group(cols, c, code, keep, every and codes.size == 1) for c in codes]
     return Batch(
-        component_id=comp[keep],
-        upload_id=upload[keep],
-        period_end=[period_end[i] for i in keep.tolist()],
-        hour_meter_start=np.array(cols["hour_meter_start"], dtype=float)[keep],
-        hour_meter_end=np.array(cols["hour_meter_end"], dtype=float)[keep],
+        component_id=comp if every else comp[keep],
+        upload_id=upload if every else upload[keep],
+        period_end=list(_pick(cols["period_end"], None if every else keep)),
+        hour_meter_start=np.array(_pick(cols["hour_meter_start"], None if every else keep), float),
+        hour_meter_end=np.array(_pick(cols["hour_meter_end"], None if every else keep), float),
         groups=groups,
     )
+
+
+def _stored_group(cols: dict, c: int, code: np.ndarray, keep: np.ndarray, whole: bool) -> Group:
+    """The group of batch rows with shape code ``c`` (``whole``: every stored row)."""
+    rows_g = np.arange(code.size) if whole else np.flatnonzero(code == c)
+    src = None if whole else keep[rows_g]
+    k, p, s = rows_g.size, int((c >> 20) & 0xFFFFF), int(c & 0xFFFFF)
+    pb = _unblob(_pick(cols["pressure_bands"], src), k, 2 * p)
+    hours = _unblob(_pick(cols["hours"], src), k, p * max(s, 1))
+    s_lo = s_hi = None
+    if s:
+        sb = _unblob(_pick(cols["speed_bands"], src), k, 2 * s)
+        s_lo, s_hi = sb[:, :s], sb[:, s:]
+        hours = hours.reshape(k, p, s)
+    first = int(rows_g[0]) if src is None else int(src[0])
+    return Group(
+        quantity=QUANTITY_PRESSURE_SPEED if c >> 40 else cols["quantity"][first],
+        rows=rows_g,
+        p_lo=pb[:, :p],
+        p_hi=pb[:, p:],
+        s_lo=s_lo,
+        s_hi=s_hi,
+        hours=hours,
+        mean_speed=np.array(_pick(cols["mean_speed_rpm"], src), dtype=float),
+    )
+
+
+def fetch_plain(conn: Connection, statement, params: dict) -> list[tuple]:  # noqa: ANN001
+    """Rows of an untyped statement as the driver's tuples (no Row objects built)."""
+    res = conn.execute(statement, params)
+    try:
+        return list(res.cursor.fetchall()) if res.cursor is not None else []
+    finally:
+        res.close()
 
 
 # --- bulk writes --------------------------------------------------------------------

@@ -239,3 +239,22 @@ def test_batched_wear_trends_equal_one_at_a_time(demo_store, min_readings):
     want = _wear_one_at_a_time(inputs, readings, params)
     assert got["case_drain_step"].any() and got["remaining_wear_h"].notna().any()
     pd.testing.assert_frame_equal(got[want.columns], want, check_dtype=False, rtol=0, atol=0)
+
+
+def test_recompute_keeps_the_schema_and_rolls_back_whole(sqlite_url):
+    from alembic import command
+
+    engine = service.init_db(sqlite_url)
+    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    for name, data in _sample_files():
+        service.upload(engine, data, name)
+    with engine.connect() as conn:
+        before = _stored_ledger(conn)
+    with pytest.raises(RuntimeError, match="stop"), store.transaction(engine) as conn:
+        ledger.recompute(conn)  # SQLite: the ledger table is dropped and built again
+        raise RuntimeError("stop")
+    with engine.connect() as conn:
+        pd.testing.assert_frame_equal(_stored_ledger(conn), before)
+    service.recompute(engine)
+    command.check(store.alembic_config(sqlite_url))  # same tables and indexes as before
+    engine.dispose()
