@@ -17,6 +17,7 @@ import pandas as pd
 from sqlalchemy import Connection, and_, select
 
 from monitor import store
+from monitor.ledger_batch import gc_paused
 from monitor.records import Histogram, ParsedFile, Problem, Reading
 
 HOUR_METER_TOLERANCE_H = 0.01
@@ -92,6 +93,11 @@ def histogram_shas(hs: list[Histogram]) -> list[str]:
 
 def plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
     """Match a parsed file to the registry and the stored history."""
+    with gc_paused():
+        return _plan_upload(conn, parsed)
+
+
+def _plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
     plan = UploadPlan()
     keys = {(h.unit, h.position) for h in parsed.histograms}
     keys |= {(r.unit, r.position) for r in parsed.readings}
@@ -164,16 +170,26 @@ def _resolve(lookup, unit, position, name, line, problems):  # noqa: ANN001, ANN
     return lookup[unit][position]
 
 
+def _utc_times(values: list) -> pd.DatetimeIndex:
+    """UTC timestamps of many datetimes, each distinct value converted once."""
+    codes: dict = {}
+    pos = np.array([codes.setdefault(v, len(codes)) for v in values], dtype=np.int64)
+    return pd.DatetimeIndex(pd.to_datetime(list(codes), utc=True)).take(pos)
+
+
 def _new_histogram_frame(plan: UploadPlan) -> pd.DataFrame:
-    rows = [
-        (comp, h.quantity, h.period_start, h.period_end, sha, h.line, i)
-        for i, (h, comp, sha) in enumerate(plan.histograms)
-    ]
-    cols = ["component_id", "quantity", "start", "end", "sha", "line", "idx"]
-    df = pd.DataFrame(rows, columns=cols)
-    df["start"] = pd.to_datetime(df["start"], utc=True)
-    df["end"] = pd.to_datetime(df["end"], utc=True)
-    return df
+    hs = plan.histograms
+    return pd.DataFrame(
+        {
+            "component_id": np.array([c for _, c, _ in hs], dtype=np.int64),
+            "quantity": [h.quantity for h, _, _ in hs],
+            "start": _utc_times([h.period_start for h, _, _ in hs]),
+            "end": _utc_times([h.period_end for h, _, _ in hs]),
+            "sha": [sha for _, _, sha in hs],
+            "line": [h.line for h, _, _ in hs],
+            "idx": np.arange(len(hs)),
+        }
+    )
 
 
 def _stored_histograms(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
@@ -236,23 +252,18 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
     """Hour meters of a unit must not run backwards unless a meter change is recorded."""
     if not plan.histograms:
         return
+    hs = plan.histograms
     new = pd.DataFrame(
-        [
-            (
-                plan.component_unit[c],
-                h.period_start,
-                h.period_end,
-                h.hour_meter_start,
-                h.hour_meter_end,
-                h.line,
-                True,
-            )
-            for h, c, _ in plan.histograms
-        ],
-        columns=["unit_id", "start", "end", "hm_start", "hm_end", "line", "new"],
+        {
+            "unit_id": np.array([plan.component_unit[c] for _, c, _ in hs], dtype=np.int64),
+            "start": _utc_times([h.period_start for h, _, _ in hs]),
+            "end": _utc_times([h.period_end for h, _, _ in hs]),
+            "hm_start": np.array([h.hour_meter_start for h, _, _ in hs], dtype=float),
+            "hm_end": np.array([h.hour_meter_end for h, _, _ in hs], dtype=float),
+            "line": [h.line for h, _, _ in hs],
+            "new": True,
+        }
     ).drop_duplicates(["unit_id", "start", "end", "hm_start", "hm_end"])
-    for col in ("start", "end"):
-        new[col] = pd.to_datetime(new[col], utc=True)
     stored = _stored_uploads(conn, new)
     changes = _meter_changes(conn, new["unit_id"].unique())
     df = pd.concat([stored, new], ignore_index=True).sort_values(["unit_id", "start", "end"])

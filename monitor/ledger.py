@@ -29,6 +29,7 @@ from monitor.ledger_batch import (
     batch_from_rows,
     bind_values,
     fetch_plain,
+    gc_paused,
     insert_rows,
     update_rows,
 )
@@ -409,6 +410,11 @@ def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 
     New ISO 4406 samples change the oil-condition factor of later uploads, so the
     ledger of a component with bearing data that got a new sample is rebuilt whole.
     """
+    with gc_paused():
+        _write_upload(conn, file_id, plan)
+
+
+def _write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
     table = component_table(conn)
     upload_ids = _insert_uploads(conn, file_id, plan)
     items = [
