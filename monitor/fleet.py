@@ -347,35 +347,33 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     count, step = np.zeros(len(records), int), np.zeros(len(records), bool)
     spans, cols = _reading_spans(readings)
     series = _wear_series(records, spans, cols)
-    trend_in, step_in, slow = [], [], set()
-    for i, (x, y) in series.items():
-        count[i] = x.size
-        if not (np.isfinite(x).all() and np.isfinite(y).all()) or not _valid_limit(limits[i]):
-            slow.add(i)  # the one-at-a-time path drops or rejects these as it always did
-            continue
-        if x.size >= params.min_wear_readings and x.min() != x.max():
-            trend_in.append(i)
-        if x.size - 1 >= params.min_wear_readings and x[:-1].min() != x[:-1].max():
-            step_in.append(i)
+    rows = np.fromiter(series, dtype=np.int64, count=len(series))
+    x_all = np.concatenate([series[i][0] for i in rows]) if rows.size else np.zeros(0)
+    y_all = np.concatenate([series[i][1] for i in rows]) if rows.size else np.zeros(0)
+    st = _SpanStats(x_all, y_all, np.array([series[i][0].size for i in rows], dtype=np.int64))
+    count[rows] = st.n
+    valid = np.array([_valid_limit(limits[i]) for i in rows], dtype=bool)
+    fast = st.finite & valid  # the others keep the one-at-a-time path, as they always did
+    m = params.min_wear_readings
+    trend_in = rows[fast & (st.n >= m) & (st.x_min != st.x_max)]
+    step_in = rows[fast & (st.n - 1 >= m) & (st.p_min != st.p_max)]
     fit = wear.theil_sen_batch([series[i][0] for i in trend_in], [series[i][1] for i in trend_in])
     before = wear.theil_sen_batch(
         [series[i][0][:-1] for i in step_in], [series[i][1][:-1] for i in step_in]
     )
-    step_fit = dict(zip(step_in, before, strict=True))
-    for i, (slope, intercept, low, high) in zip(trend_in, fit, strict=True):
-        now = _now_fast(records[i], series[i][0])
-        level = intercept + slope * now
-        rem = (
-            (math.nan,) * 3
-            if limits[i] is None
-            else wear.remaining_wear_h(limits[i], level, slope, low, high)
-        )
+    step_fit = dict(zip(step_in.tolist(), before, strict=True))
+    for i, (slope, intercept, low, high) in zip(trend_in.tolist(), fit, strict=True):
+        level = intercept + slope * _now_fast(records[i], series[i][0])
+        rem = (math.nan,) * 3
+        if limits[i] is not None:
+            rem = wear.remaining_wear_h(limits[i], level, slope, low, high)
         res[i] = (level, slope, *rem)
-    for i, (x, y) in series.items():
-        if i in slow:
-            res[i], step[i] = _wear_one(x, y, limits[i], records[i], params)
-        else:
+    for i, ok in zip(rows.tolist(), fast.tolist(), strict=True):
+        x, y = series[i]
+        if ok:
             step[i] = _step_from_fit(x, y, step_fit.get(i), params)
+        else:
+            res[i], step[i] = _wear_one(x, y, limits[i], records[i], params)
     names = (
         "case_drain_level_lpm",
         "case_drain_slope_lpm_per_h",
@@ -388,6 +386,28 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     out["case_drain_limit_lpm"] = np.array([np.nan if v is None else v for v in limits], float)
     out["case_drain_step"] = step
     return out
+
+
+class _SpanStats:
+    """Per series of concatenated readings: count, all finite, x range and the x range
+    without the last reading (reductions over all series at once)."""
+
+    def __init__(self, x: np.ndarray, y: np.ndarray, n: np.ndarray) -> None:
+        self.n = n
+        if n.size == 0:
+            self.finite = np.zeros(0, bool)
+            self.x_min = self.x_max = self.p_min = self.p_max = np.zeros(0)
+            return
+        starts = np.r_[0, np.cumsum(n)[:-1]]
+        last = starts + n - 1
+        with np.errstate(invalid="ignore"):
+            self.finite = np.logical_and.reduceat(np.isfinite(x) & np.isfinite(y), starts)
+            self.x_min = np.minimum.reduceat(x, starts)
+            self.x_max = np.maximum.reduceat(x, starts)
+            lo, hi = x.copy(), x.copy()
+            lo[last], hi[last] = np.inf, -np.inf
+            self.p_min = np.minimum.reduceat(lo, starts)
+            self.p_max = np.maximum.reduceat(hi, starts)
 
 
 def _valid_limit(limit: float | None) -> bool:
