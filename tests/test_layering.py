@@ -24,6 +24,8 @@ PURE = [
     "planning",
     "planning_types",
     "planning_report",
+    "ledger_metrics",
+    "fleet_detail",
 ]
 FORBIDDEN_EVERYWHERE_PURE = {"sqlalchemy", "streamlit", "click", "alembic", "psycopg"}
 NO_PANDAS = {"bearings", "oil", "spectrum", "wear", "relief", "hydraulics", "lifecycle"}
