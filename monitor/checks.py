@@ -17,8 +17,16 @@ import pandas as pd
 from sqlalchemy import Connection, and_, select
 
 from monitor import store
+from monitor.ingest_common import group_ids
 from monitor.ledger_batch import gc_paused
-from monitor.records import Histogram, ParsedFile, Problem, Reading
+from monitor.records import (
+    Histogram,
+    HistogramBatch,
+    ParsedFile,
+    Problem,
+    Reading,
+    utc_datetimes,
+)
 
 HOUR_METER_TOLERANCE_H = 0.01
 NEIGHBOUR_WINDOW = timedelta(days=400)  # how far around a file stored uploads are compared
@@ -26,13 +34,39 @@ NEIGHBOUR_WINDOW = timedelta(days=400)  # how far around a file stored uploads a
 
 @dataclass
 class UploadPlan:
-    """Histograms and readings to store (with their component ids), or the problems."""
+    """Histograms and readings to store (with their component ids), or the problems.
 
-    histograms: list[tuple[Histogram, int, str]] = field(default_factory=list)  # (h, comp, sha)
+    ``batch`` holds the histograms to store; per histogram of it, ``component_id``,
+    ``unit_id``, its content hash ``sha`` and ``upload``, the number of its upload (one
+    per unit, period and hour meters, numbered in order of first appearance).
+    ``upload_first`` is the first histogram of each upload.
+    """
+
+    batch: HistogramBatch = field(default_factory=lambda: HistogramBatch.from_histograms([]))
+    component_id: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    unit_id: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    sha: list[str] = field(default_factory=list)
+    upload: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    upload_first: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     readings: list[tuple[Reading, int]] = field(default_factory=list)
     skipped: int = 0
     problems: list[Problem] = field(default_factory=list)
     component_unit: dict[int, int] = field(default_factory=dict)
+
+    @property
+    def n_histograms(self) -> int:
+        """Histograms to store."""
+        return len(self.batch)
+
+    def keep(self, rows: np.ndarray) -> None:
+        """Keep only the histograms ``rows`` (positions, ascending)."""
+        self.batch = self.batch.take(rows)
+        self.component_id, self.unit_id = self.component_id[rows], self.unit_id[rows]
+        self.sha = [self.sha[i] for i in rows.tolist()]
+
+
+DIGEST_ORDER = ("pressure_low_bar", "pressure_high_bar", "speed_low_rpm", "speed_high_rpm", "hours")
+"""The band arrays a histogram's content hash reads, in order (after its header)."""
 
 
 def histogram_sha(h: Histogram) -> str:
@@ -47,48 +81,49 @@ def histogram_sha(h: Histogram) -> str:
     return m.hexdigest()
 
 
-def _rounded_rows(arrays: list) -> list[bytes]:
-    """``np.round(a, 9).tobytes()`` of each array, done once per stack of equal shapes."""
-    out: list[bytes] = [b""] * len(arrays)
-    by_shape: dict[tuple, list[int]] = {}
-    for i, a in enumerate(arrays):
-        by_shape.setdefault(np.shape(a), []).append(i)
-    for shape, idx in by_shape.items():
-        stack = np.round(np.stack([np.asarray(arrays[i], dtype=float) for i in idx]), 9)
-        data = stack.tobytes()
-        w = 8 * int(np.prod(shape, dtype=np.int64))
-        for j, i in enumerate(idx):
-            out[i] = data[j * w : (j + 1) * w]
-    return out
-
-
 def histogram_shas(hs: list[Histogram]) -> list[str]:
-    """:func:`histogram_sha` of many histograms (the same digests, arrays rounded in stacks)."""
-    iso: dict = {}
+    """:func:`histogram_sha` of many histograms (see :func:`batch_shas`)."""
+    return batch_shas(HistogramBatch.from_histograms(hs))
 
-    def stamp(t) -> str:  # noqa: ANN001
-        s = iso.get(t)
-        if s is None:
-            s = iso[t] = t.isoformat()
-        return s
 
-    parts = [
-        _rounded_rows([h.pressure_low_bar for h in hs]),
-        _rounded_rows([h.pressure_high_bar for h in hs]),
-        _rounded_rows([h.hours for h in hs]),
+def batch_shas(b: HistogramBatch) -> list[str]:
+    """:func:`histogram_sha` of every histogram of a batch: the same digests.
+
+    The bands and hours of all histograms are laid out once in the order the digest
+    reads them (pressure low, pressure high, speed low, speed high, hours; each
+    histogram's run after the one before), rounded in one pass; each digest then
+    reads its header and a slice of those bytes.
+    """
+    if len(b) == 0:
+        return []
+    body, bounds = b.runs(DIGEST_ORDER)
+    data = np.round(body, 9).tobytes()
+    cut = (8 * bounds).tolist()
+    iso = _iso_stamps(np.concatenate([b.period_start_ns, b.period_end_ns]))
+    n = len(b)
+    sha = hashlib.sha256
+    rows = zip(
+        b.quantity.tolist(),
+        iso[:n],
+        iso[n:],
+        b.hour_meter_start.tolist(),
+        b.hour_meter_end.tolist(),
+        cut[:-1],
+        cut[1:],
+        strict=True,
+    )
+    return [
+        sha(f"{q}|{t0}|{t1}|{m0:.6f}|{m1:.6f}|".encode() + data[a:z]).hexdigest()
+        for q, t0, t1, m0, m1, a, z in rows
     ]
-    speed = [i for i, h in enumerate(hs) if h.speed_low_rpm is not None]
-    s_lo = dict(zip(speed, _rounded_rows([hs[i].speed_low_rpm for i in speed]), strict=True))
-    s_hi = dict(zip(speed, _rounded_rows([hs[i].speed_high_rpm for i in speed]), strict=True))
-    out = []
-    for i, h in enumerate(hs):
-        head = (
-            f"{h.quantity}|{stamp(h.period_start)}|{stamp(h.period_end)}|"
-            f"{h.hour_meter_start:.6f}|{h.hour_meter_end:.6f}|"
-        ).encode()
-        body = parts[0][i] + parts[1][i] + s_lo.get(i, b"") + s_hi.get(i, b"") + parts[2][i]
-        out.append(hashlib.sha256(head + body).hexdigest())
-    return out
+
+
+def _iso_stamps(ns: np.ndarray) -> list[str]:
+    """ISO 8601 text of UTC timestamps [ns since the epoch], as ``datetime.isoformat``
+    writes them; each distinct value is converted once."""
+    uniq, inv = np.unique(ns, return_inverse=True)
+    text = np.array([t.isoformat() for t in utc_datetimes(uniq)], dtype=object)
+    return text[inv.reshape(-1)].tolist()
 
 
 def plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
@@ -99,29 +134,57 @@ def plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
 
 def _plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
     plan = UploadPlan()
-    keys = {(h.unit, h.position) for h in parsed.histograms}
-    keys |= {(r.unit, r.position) for r in parsed.readings}
-    lookup = _component_lookup(conn, {u for u, _ in keys})
+    batch = parsed.histogram_batch()
+    pairs = _pairs(batch)
+    tags = {u for u, _ in pairs} | {r.unit for r in parsed.readings}
+    lookup = _component_lookup(conn, tags)
     name = parsed.name
-    resolved = []
-    for h in parsed.histograms:
-        comp = _resolve(lookup, h.unit, h.position, name, h.line, plan.problems)
-        if comp is not None:
-            resolved.append((h, comp[0]))
-            plan.component_unit[comp[0]] = comp[1]
-    shas = histogram_shas([h for h, _ in resolved]) if not plan.problems else []
-    plan.histograms = [(h, c, sha) for (h, c), sha in zip(resolved, shas, strict=False)]
+    comp, unit = _resolve_batch(lookup, batch, pairs, name, plan.problems)
     for r in parsed.readings:
-        comp = _resolve(lookup, r.unit, r.position, name, r.line, plan.problems)
-        if comp is not None:
-            plan.readings.append((r, comp[0]))
-            plan.component_unit[comp[0]] = comp[1]
+        resolved = _resolve(lookup, r.unit, r.position, name, r.line, plan.problems)
+        if resolved is not None:
+            plan.readings.append((r, resolved[0]))
+            plan.component_unit[resolved[0]] = resolved[1]
     if plan.problems:
         return plan
+    plan.component_unit.update(zip(comp.tolist(), unit.tolist(), strict=True))
+    plan.batch, plan.component_id, plan.unit_id = batch, comp, unit
+    plan.sha = batch_shas(batch)
     _check_overlaps(conn, plan, name)
+    _number_uploads(plan)
     _check_hour_meters(conn, plan, name)
     _check_readings(conn, plan, name)
     return plan
+
+
+def _pairs(b: HistogramBatch) -> dict[tuple[str, str], np.ndarray]:
+    """Histogram positions of each (unit, position), in order of first appearance."""
+    if len(b) == 0:
+        return {}
+    codes = [pd.factorize(b.unit)[0], pd.factorize(b.position)[0]]
+    gid = group_ids(codes)
+    order = np.argsort(gid, kind="stable")
+    cut = np.flatnonzero(np.diff(gid[order])) + 1
+    groups = np.split(order, cut)
+    return {(b.unit[g[0]], b.position[g[0]]): g for g in groups}
+
+
+def _resolve_batch(lookup, b: HistogramBatch, pairs: dict, name: str, problems: list):  # noqa: ANN001, ANN202
+    """Component and unit id per histogram (-1 where unknown); a problem per histogram
+    whose unit or position is not registered, in histogram order."""
+    comp = np.full(len(b), -1, dtype=np.int64)
+    unit = np.full(len(b), -1, dtype=np.int64)
+    bad = []
+    for (u, pos), rows in pairs.items():
+        found = lookup.get(u, {}).get(pos)
+        if found is None:
+            bad.append(rows)
+        else:
+            comp[rows], unit[rows] = found
+    lines = [None] * len(b) if b.line is None else b.line.tolist()
+    for i in np.sort(np.concatenate(bad)).tolist() if bad else []:
+        _resolve(lookup, b.unit[i], b.position[i], name, lines[i], problems)
+    return comp, unit
 
 
 def _component_lookup(conn: Connection, tags: set[str]) -> dict[str, dict[str, tuple[int, int]]]:
@@ -170,24 +233,27 @@ def _resolve(lookup, unit, position, name, line, problems):  # noqa: ANN001, ANN
     return lookup[unit][position]
 
 
-def _utc_times(values: list) -> pd.DatetimeIndex:
-    """UTC timestamps of many datetimes, each distinct value converted once."""
-    codes: dict = {}
-    pos = np.array([codes.setdefault(v, len(codes)) for v in values], dtype=np.int64)
-    return pd.DatetimeIndex(pd.to_datetime(list(codes), utc=True)).take(pos)
+def _utc(ns: np.ndarray) -> pd.DatetimeIndex:
+    """UTC timestamps of int64 ns since the epoch."""
+    return pd.DatetimeIndex(pd.to_datetime(ns, unit="ns", utc=True))
 
 
-def _new_histogram_frame(plan: UploadPlan) -> pd.DataFrame:
-    hs = plan.histograms
+def _lines(b: HistogramBatch) -> list:
+    return [None] * len(b) if b.line is None else b.line.tolist()
+
+
+def _new_histogram_frame(plan: UploadPlan, rows: np.ndarray) -> pd.DataFrame:
+    """The histograms ``rows`` of the plan; ``idx`` is their position in the plan."""
+    b, lines = plan.batch, _lines(plan.batch)
     return pd.DataFrame(
         {
-            "component_id": np.array([c for _, c, _ in hs], dtype=np.int64),
-            "quantity": [h.quantity for h, _, _ in hs],
-            "start": _utc_times([h.period_start for h, _, _ in hs]),
-            "end": _utc_times([h.period_end for h, _, _ in hs]),
-            "sha": [sha for _, _, sha in hs],
-            "line": [h.line for h, _, _ in hs],
-            "idx": np.arange(len(hs)),
+            "component_id": plan.component_id[rows],
+            "quantity": b.quantity[rows],
+            "start": _utc(b.period_start_ns[rows]),
+            "end": _utc(b.period_end_ns[rows]),
+            "sha": [plan.sha[i] for i in rows.tolist()],
+            "line": [lines[i] for i in rows.tolist()],
+            "idx": rows,
         }
     )
 
@@ -218,11 +284,44 @@ def _stored_histograms(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
     return df
 
 
+def _early_components(conn: Connection, plan: UploadPlan) -> np.ndarray:
+    """Components with a new histogram that starts before the end of the last stored
+    histogram of the same quantity; the others cannot overlap a stored period.
+
+    One index seek per component and quantity. Stored periods of one component and
+    quantity never overlap, so the one that starts last also ends last.
+    """
+    b, t, c = plan.batch, store.histogram, store.component
+    early = []
+    for quantity in pd.unique(b.quantity).tolist():
+        sel = b.quantity == quantity
+        first = pd.Series(b.period_start_ns[sel]).groupby(plan.component_id[sel]).min()
+        last = (
+            select(t.c.period_end)
+            .where(t.c.component_id == c.c.id, t.c.quantity == quantity)
+            .order_by(t.c.period_start.desc())
+            .limit(1)
+            .correlate(c)
+            .scalar_subquery()
+        )
+        q = select(c.c.id, last).where(c.c.id.in_([int(x) for x in first.index]))
+        stored = [(cid, end) for cid, end in conn.execute(q).all() if end is not None]
+        if stored:
+            ids = np.array([cid for cid, _ in stored], dtype=np.int64)
+            ends = pd.DatetimeIndex(pd.to_datetime([e for _, e in stored], utc=True))
+            starts = first.loc[ids].to_numpy()
+            early.append(ids[starts < ends.as_unit("ns").asi8])
+    return np.unique(np.concatenate(early)) if early else np.zeros(0, dtype=np.int64)
+
+
 def _check_overlaps(conn: Connection, plan: UploadPlan, name: str) -> None:
     """Periods of one component and quantity must not overlap unless identical."""
-    if not plan.histograms:
+    if not plan.n_histograms:
         return
-    new = _new_histogram_frame(plan)
+    early = _early_components(conn, plan)
+    if not early.size:
+        return
+    new = _new_histogram_frame(plan, np.flatnonzero(np.isin(plan.component_id, early)))
     stored = _stored_histograms(conn, new)
     if stored.empty:
         return
@@ -244,26 +343,39 @@ def _check_overlaps(conn: Connection, plan: UploadPlan, name: str) -> None:
             )
         )
     if drop:
-        plan.histograms = [x for i, x in enumerate(plan.histograms) if i not in drop]
+        plan.keep(np.setdiff1d(np.arange(plan.n_histograms), np.fromiter(drop, np.int64)))
         plan.skipped += len(drop)
+
+
+def _number_uploads(plan: UploadPlan) -> None:
+    """Number the uploads of the histograms to store: one per unit, period and hour
+    meters, in order of first appearance."""
+    b = plan.batch
+    if not len(b):
+        return
+    meters = (b.hour_meter_start + 0.0, b.hour_meter_end + 0.0)  # -0.0 reads as 0.0
+    keys = (plan.unit_id, b.period_start_ns, b.period_end_ns, *meters)
+    plan.upload = group_ids([pd.factorize(k)[0] for k in keys])
+    plan.upload_first = np.unique(plan.upload, return_index=True)[1]
 
 
 def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
     """Hour meters of a unit must not run backwards unless a meter change is recorded."""
-    if not plan.histograms:
+    if not plan.n_histograms:
         return
-    hs = plan.histograms
+    b, f = plan.batch, plan.upload_first
+    lines = _lines(b)
     new = pd.DataFrame(
         {
-            "unit_id": np.array([plan.component_unit[c] for _, c, _ in hs], dtype=np.int64),
-            "start": _utc_times([h.period_start for h, _, _ in hs]),
-            "end": _utc_times([h.period_end for h, _, _ in hs]),
-            "hm_start": np.array([h.hour_meter_start for h, _, _ in hs], dtype=float),
-            "hm_end": np.array([h.hour_meter_end for h, _, _ in hs], dtype=float),
-            "line": [h.line for h, _, _ in hs],
+            "unit_id": plan.unit_id[f],
+            "start": _utc(b.period_start_ns[f]),
+            "end": _utc(b.period_end_ns[f]),
+            "hm_start": b.hour_meter_start[f],
+            "hm_end": b.hour_meter_end[f],
+            "line": [lines[i] for i in f.tolist()],
             "new": True,
         }
-    ).drop_duplicates(["unit_id", "start", "end", "hm_start", "hm_end"])
+    )
     stored = _stored_uploads(conn, new)
     changes = _meter_changes(conn, new["unit_id"].unique())
     df = pd.concat([stored, new], ignore_index=True).sort_values(["unit_id", "start", "end"])

@@ -101,7 +101,7 @@ def _parse_text(data: bytes, probs: ProblemList, out: ParsedFile) -> None:
     if head.startswith(("{", "[")):
         bands, reads = read_json_tables(data.decode("utf-8-sig"), probs)
         if bands is not None:
-            out.histograms = histograms(bands, probs)
+            out.batch = histograms(bands, probs)
         if reads is not None:
             out.readings = readings(reads, probs)
         return
@@ -110,7 +110,7 @@ def _parse_text(data: bytes, probs: ProblemList, out: ParsedFile) -> None:
         return
     kind, table = read
     if kind == HISTOGRAM:
-        out.histograms = histograms(table, probs)
+        out.batch = histograms(table, probs)
     else:
         out.readings = readings(table, probs)
 

@@ -1,29 +1,27 @@
-"""Cut validated, sorted band arrays into one Histogram record per histogram.
+"""Cut validated, sorted band arrays into a :class:`~monitor.records.HistogramBatch`.
 
 The band arrays of all histograms are sorted once (see
-:class:`monitor.ingest_histograms.Groups`); each record gets views of its slice. The
-pressure-by-speed matrices of all 2-D histograms are filled in one scatter into a single
-buffer, so the only per-histogram Python work is slicing and the record itself.
+:class:`monitor.ingest_histograms.Groups`). Plain histograms keep their sorted bands; the
+pressure-by-speed matrices of all 2-D histograms are filled in one scatter. The batch
+holds every histogram's bands end to end, so nothing here loops per histogram; the
+:class:`~monitor.records.Histogram` records are views of the batch, made on request.
 """
 
 from __future__ import annotations
 
-import gc
-from collections.abc import Iterator
-from contextlib import contextmanager
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from monitor.ingest_common import Table, to_datetimes
-from monitor.records import QUANTITY_PRESSURE, QUANTITY_PRESSURE_SPEED, Histogram
+from monitor.ingest_common import Table
+from monitor.records import QUANTITY_PRESSURE, QUANTITY_PRESSURE_SPEED, HistogramBatch
 
 if TYPE_CHECKING:
     from monitor.ingest_histograms import Groups
 
 
-def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Histogram]:
-    """Histogram records [bar, rpm, h] from a validated band table, in histogram order.
+def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> HistogramBatch:
+    """The histograms [bar, rpm, h] of a validated band table, in histogram order.
 
     Parameters
     ----------
@@ -34,67 +32,70 @@ def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Hi
     start, end : numpy.ndarray
         Period start and end of every row [int64 ns since the epoch, UTC].
     """
-    with _no_gc():  # many small objects, no cycles: skip the collector's passes
-        return _records(t, g, start, end)
-
-
-def _records(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> list[Histogram]:
     f = g.first
     n = len(f)
-    ts = to_datetimes(np.r_[start[f], end[f]])
-    quantity, lows, highs, speed_lows, speed_highs, cells = _band_lists(g)
-    mean = [None if x != x else x for x in t.num["mean_speed"][f].tolist()]  # NaN -> None
+    rows = g.ends - g.starts
+    is2d = g.d2[g.starts]
+    n_p, n_s = rows.copy(), np.zeros(n, dtype=np.int64)
+    bands = {k: g.col[k] for k in ("pressure_low", "pressure_high", "hours")}
+    s_lo = s_hi = np.zeros(0)
+    two_d = np.flatnonzero(is2d)
+    if two_d.size:
+        m = _matrices(g, two_d)
+        n_p[two_d], n_s[two_d] = m["n_p"], m["n_s"]
+        one_d = np.repeat(~is2d, rows)  # sorted rows of plain histograms
+        bands = {k: _splice(v[one_d], m[k], is2d, n_p, n_s, k) for k, v in bands.items()}
+        s_lo, s_hi = m["speed_low"], m["speed_high"]
+    quantity = np.where(is2d, QUANTITY_PRESSURE_SPEED, QUANTITY_PRESSURE).astype(object)
+    line = None
     if t.line0 is not None:
-        lines = np.minimum.reduceat(g.sort(t.line0), g.starts).tolist()
-    else:
-        lines = [None] * n
-    return list(
-        map(
-            Histogram,
-            _strings(t, "unit", f),
-            _strings(t, "position", f),
-            quantity,
-            ts[:n],
-            ts[n:],
-            t.num["hour_meter_start"][f].tolist(),
-            t.num["hour_meter_end"][f].tolist(),
-            lows,
-            highs,
-            cells,
-            speed_lows,
-            speed_highs,
-            mean,
-            lines,
-        )
+        line = np.minimum.reduceat(g.sort(t.line0), g.starts).astype(np.int64)
+    return HistogramBatch(
+        unit=_strings(t, "unit", f),
+        position=_strings(t, "position", f),
+        quantity=quantity,
+        period_start_ns=_whole_us(start[f]),
+        period_end_ns=_whole_us(end[f]),
+        hour_meter_start=t.num["hour_meter_start"][f],
+        hour_meter_end=t.num["hour_meter_end"][f],
+        mean_speed_rpm=t.num["mean_speed"][f],
+        line=line,
+        n_pressure=n_p,
+        n_speed=n_s,
+        pressure_low_bar=bands["pressure_low"],
+        pressure_high_bar=bands["pressure_high"],
+        speed_low_rpm=s_lo,
+        speed_high_rpm=s_hi,
+        hours=bands["hours"],
     )
 
 
-def _band_lists(g: Groups) -> tuple[list, ...]:
-    """Per histogram: quantity, pressure low/high, speed low/high (or None), hours."""
-    n = len(g.starts)
-    pl, ph, hours = g.col["pressure_low"], g.col["pressure_high"], g.col["hours"]
-    bounds = list(zip(g.starts.tolist(), g.ends.tolist(), strict=True))
-    lows = [pl[a:b] for a, b in bounds]
-    highs = [ph[a:b] for a, b in bounds]
-    cells = [hours[a:b] for a, b in bounds]
-    quantity = [QUANTITY_PRESSURE] * n
-    speed_lows: list[np.ndarray | None] = [None] * n
-    speed_highs: list[np.ndarray | None] = [None] * n
-    two_d = np.flatnonzero(g.d2[g.starts])
-    if two_d.size:
-        for k, m in zip(two_d.tolist(), _matrices(g, two_d), strict=True):
-            quantity[k] = QUANTITY_PRESSURE_SPEED
-            lows[k], highs[k], speed_lows[k], speed_highs[k], cells[k] = m
-    return quantity, lows, highs, speed_lows, speed_highs, cells
+def _splice(
+    plain: np.ndarray,
+    matrix: np.ndarray,
+    is2d: np.ndarray,
+    n_p: np.ndarray,
+    n_s: np.ndarray,
+    key: str,
+) -> np.ndarray:
+    """Bands (or hours) of plain and pressure-by-speed histograms end to end, in
+    histogram order: ``plain`` holds the former's values, ``matrix`` the latter's."""
+    count = n_p * np.maximum(n_s, 1) if key == "hours" else n_p
+    out = np.empty(int(count.sum()))
+    seg = np.repeat(is2d, count)
+    out[~seg] = plain
+    out[seg] = matrix
+    return out
 
 
-def _matrices(g: Groups, two_d: np.ndarray) -> list[tuple]:
-    """(pressure low, pressure high, speed low, speed high, hours matrix) per 2-D group.
+def _matrices(g: Groups, two_d: np.ndarray) -> dict[str, np.ndarray]:
+    """Bands and hours matrices of the pressure-by-speed histograms ``two_d``, end to end.
 
-    ``two_d`` numbers the pressure-by-speed histograms. Within each, the distinct
-    pressure bands (sorted rows with a new low edge) and the distinct speed bands (rows
-    sorted by speed low with a new low edge) index the cells of a zero matrix; cells not
-    listed stay 0 h.
+    Within each histogram, the distinct pressure bands (sorted rows with a new low edge)
+    and the distinct speed bands (rows sorted by speed low with a new low edge) index
+    the cells of a zero matrix; cells not listed stay 0 h. Returns the band counts
+    ``n_p``/``n_s`` per histogram and the flat ``pressure_low``, ``pressure_high``,
+    ``speed_low``, ``speed_high`` and ``hours`` (each matrix row by row).
     """
     rows = np.flatnonzero(g.d2)  # sorted positions of all 2-D cells, grouped
     grp = np.repeat(np.arange(len(two_d)), (g.ends - g.starts)[two_d])
@@ -111,16 +112,15 @@ def _matrices(g: Groups, two_d: np.ndarray) -> list[tuple]:
     offset = np.r_[0, np.cumsum(size)[:-1]]
     flat = np.zeros(int(size.sum()))
     flat[offset[grp] + pidx * ns[grp] + sidx] = g.col["hours"][rows]
-    pu, phu = pl[newp], ph[newp]
-    su, shu = sl[so][news], sh[so][news]
-    p0 = np.r_[0, np.cumsum(np_)[:-1]].tolist()
-    s0 = np.r_[0, np.cumsum(ns)[:-1]].tolist()
-    out = []
-    sizes = zip(p0, s0, offset.tolist(), np_.tolist(), ns.tolist(), strict=True)
-    for a, c, b, p, s in sizes:
-        m = flat[b : b + p * s].reshape(p, s)
-        out.append((pu[a : a + p], phu[a : a + p], su[c : c + s], shu[c : c + s], m))
-    return out
+    return {
+        "n_p": np_,
+        "n_s": ns,
+        "pressure_low": pl[newp],
+        "pressure_high": ph[newp],
+        "speed_low": sl[so][news],
+        "speed_high": sh[so][news],
+        "hours": flat,
+    }
 
 
 def _index_within(new: np.ndarray, grp: np.ndarray, n_groups: int) -> tuple:
@@ -132,23 +132,12 @@ def _index_within(new: np.ndarray, grp: np.ndarray, n_groups: int) -> tuple:
     return c - base[grp], counts
 
 
-def _strings(t: Table, f: str, rows: np.ndarray) -> list[str]:
+def _whole_us(ns: np.ndarray) -> np.ndarray:
+    """Timestamps [ns] rounded down to whole microseconds, as datetimes hold them."""
+    return ns - ns % 1000
+
+
+def _strings(t: Table, f: str, rows: np.ndarray) -> np.ndarray:
     """The text of column ``f`` on ``rows`` (codes gathered first, then the few uniques)."""
     codes, uniq = t.text[f]
-    return np.asarray(uniq, dtype=object)[codes[rows]].tolist()
-
-
-@contextmanager
-def _no_gc() -> Iterator[None]:
-    """Pause the cyclic garbage collector (restoring its previous state afterwards).
-
-    Building tens of thousands of records would otherwise trigger collector passes
-    over every live object of the process, which cost more than the building itself.
-    """
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_enabled:
-            gc.enable()
+    return np.asarray(uniq, dtype=object)[codes[rows]]

@@ -30,17 +30,17 @@ from monitor.ingest_common import (
     parse_times,
     where_text,
 )
-from monitor.records import QUANTITIES, QUANTITY_PRESSURE_SPEED, Histogram
+from monitor.records import QUANTITIES, QUANTITY_PRESSURE_SPEED, HistogramBatch
 
 SORTED = ("pressure_low", "pressure_high", "speed_low", "speed_high", "hours")
 """Band columns kept in sorted order for the per-histogram checks and the records."""
 
 
-def histograms(t: Table, probs: ProblemList) -> list[Histogram]:
-    """Validate a band table and cut it into Histogram records."""
+def histograms(t: Table, probs: ProblemList) -> HistogramBatch | None:
+    """Validate a band table and cut it into histograms (None if there is any problem)."""
     if t.n == 0:
         probs.add(None, None, None, "the file has a header but no rows of data")
-        return []
+        return None
     for f in ("speed_low", "speed_high", "mean_speed"):
         if f not in t.num:
             t.num[f] = np.full(t.n, np.nan)
@@ -62,7 +62,7 @@ def histograms(t: Table, probs: ProblemList) -> list[Histogram]:
     _check_periods(t, g, start, end, probs)
     _check_period_overlaps(t, g, start, end, probs)
     if probs:
-        return []
+        return None
     return assemble(t, g, start, end)
 
 

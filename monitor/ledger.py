@@ -22,11 +22,13 @@ from sqlalchemy import Connection, bindparam, delete, select, text
 
 from monitor import oil as oil_mod
 from monitor import queries, store
+from monitor.ingest_common import group_ids
 from monitor.ledger_batch import (
     STORED_SQL,
     Batch,
-    batch_from_histograms,
+    batch_from_columns,
     batch_from_rows,
+    bind_times,
     bind_values,
     fetch_plain,
     gc_paused,
@@ -185,9 +187,12 @@ def _ledger_tuples(
     conn: Connection, batch: Batch, values: dict, order: np.ndarray, *, raw: bool
 ) -> list[tuple]:
     """Insert tuples of ledger rows in ``order`` (``raw``: period ends as stored)."""
-    ends = [batch.period_end[i] for i in order.tolist()]
-    if not raw:
-        ends = bind_values(conn, store.ledger, "period_end", ends)
+    if raw:
+        ends = [batch.period_end[i] for i in order.tolist()]
+    elif batch.period_end_ns is not None:
+        ends = bind_times(conn, store.ledger, "period_end", batch.period_end_ns[order])
+    else:
+        ends = bind_values(conn, store.ledger, "period_end", [batch.period_end[i] for i in order])
     cols = [
         batch.upload_id[order].tolist(),
         batch.component_id[order].tolist(),
@@ -213,44 +218,46 @@ def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 
 def _write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
     table = component_table(conn)
     upload_ids = _insert_uploads(conn, file_id, plan)
-    items = [
-        (h, c, upload_ids[_upload_key(h, plan.component_unit[c])]) for h, c, _ in plan.histograms
-    ]
-    every = batch_from_histograms(items)
-    _insert_histograms(conn, plan, items, every)
+    every = batch_from_columns(
+        plan.batch, np.arange(plan.n_histograms), plan.component_id, upload_ids
+    )
+    _insert_histograms(conn, plan, every)
     _insert_readings(conn, file_id, plan)
     resampled = sorted({c for r, c in plan.readings if r.iso4406} & table.bearing_components())
     if resampled:
         rebuild_components(conn, resampled, table)
-    skip = set(resampled)
-    chosen = _select_for_ledger([it for it in items if it[1] not in skip])
-    if not chosen:
+    chosen = _select_for_ledger(plan, upload_ids, set(resampled))
+    if not chosen.size:
         return
-    batch = every if len(chosen) == len(items) else batch_from_histograms(chosen)
+    if chosen.size == len(every):  # one histogram per upload and component, none skipped
+        batch = every
+    else:
+        batch = batch_from_columns(
+            plan.batch, chosen, plan.component_id[chosen], upload_ids[chosen]
+        )
     _append_ledger(conn, batch, table)
 
 
-def _upload_key(h: Histogram, unit_id: int) -> tuple:
-    return (unit_id, h.period_start, h.period_end, h.hour_meter_start, h.hour_meter_end)
-
-
-def _insert_uploads(conn: Connection, file_id: int, plan) -> dict[tuple, int]:  # noqa: ANN001
-    keys = list(
-        dict.fromkeys(_upload_key(h, plan.component_unit[c]) for h, c, _ in plan.histograms)
+def _insert_uploads(conn: Connection, file_id: int, plan) -> np.ndarray:  # noqa: ANN001
+    """Insert one upload row per upload of the plan; return the upload id per histogram."""
+    first = plan.upload_first
+    if not first.size:
+        return np.zeros(0, dtype=np.int64)
+    t, b = store.upload, plan.batch
+    rows = zip(
+        [file_id] * first.size,
+        plan.unit_id[first].tolist(),
+        bind_times(conn, t, "period_start", b.period_start_ns[first]),
+        bind_times(conn, t, "period_end", b.period_end_ns[first]),
+        b.hour_meter_start[first].tolist(),
+        b.hour_meter_end[first].tolist(),
+        strict=True,
     )
-    if not keys:
-        return {}
-    t = store.upload
-    unit_id, start, end, hm0, hm1 = (list(v) for v in zip(*keys, strict=True))
-    start = bind_values(conn, t, "period_start", start)
-    end = bind_values(conn, t, "period_end", end)
-    rows = list(zip([file_id] * len(keys), unit_id, start, end, hm0, hm1, strict=True))
     cols = ["file_id", "unit_id", "period_start", "period_end"]
-    insert_rows(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], rows)
+    insert_rows(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], list(rows))
     # ids rise in insert order (SQLite rowids; one session's sequence values in PostgreSQL)
     ids = conn.execute(select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id)).scalars()
-    ids = ids.all()
-    return dict(zip(keys, ids, strict=True))
+    return np.array(ids.all(), dtype=np.int64)[plan.upload]
 
 
 HISTOGRAM_COLUMNS = [
@@ -270,48 +277,50 @@ HISTOGRAM_COLUMNS = [
 ]
 
 
-def _blobs(a: np.ndarray, b: np.ndarray | None = None) -> list[bytes]:
-    """Row-wise :func:`monitor.store.pack` of a (k, ...) array, or of [a | b] per row."""
-    flat = a.reshape(a.shape[0], -1) if b is None else np.concatenate([a, b], axis=1)
-    data = np.ascontiguousarray(flat, dtype="<f8").tobytes()
-    w = flat.shape[1] * 8
-    return [data[i : i + w] for i in range(0, len(data), w)]
+def _blobs(values: np.ndarray, bounds: np.ndarray) -> list[bytes]:
+    """:func:`monitor.store.pack` of each run ``values[bounds[i]:bounds[i + 1]]``."""
+    data = np.ascontiguousarray(values, dtype="<f8").tobytes()
+    cut = (8 * bounds).tolist()
+    return [data[a:z] for a, z in zip(cut[:-1], cut[1:], strict=True)]
 
 
-def _insert_histograms(conn: Connection, plan, items: list, batch: Batch) -> None:  # noqa: ANN001
-    n = len(items)
+def _insert_histograms(conn: Connection, plan, batch: Batch) -> None:  # noqa: ANN001
+    """Insert one histogram row per histogram of the plan (``batch``: all of them)."""
+    n = plan.n_histograms
     if not n:
         return
-    pressure, speed, hours = [b""] * n, [None] * n, [b""] * n
+    b, t = plan.batch, store.histogram
     total = np.zeros(n)
     for g in batch.groups:
-        rows = g.rows.tolist()
-        for i, blob in zip(rows, _blobs(g.p_lo, g.p_hi), strict=True):
-            pressure[i] = blob
-        for i, blob in zip(rows, _blobs(g.hours), strict=True):
-            hours[i] = blob
-        if g.s_lo is not None:
-            for i, blob in zip(rows, _blobs(g.s_lo, g.s_hi), strict=True):
-                speed[i] = blob
-        total[g.rows] = g.hours.reshape(len(rows), -1).sum(axis=1)
-    hs = [it[0] for it in items]
-    t = store.histogram
+        total[g.rows] = g.hours.reshape(len(g.rows), -1).sum(axis=1)
+    speed: list = [None] * n
+    two_d = np.flatnonzero(b.n_speed > 0)
+    if two_d.size:
+        sub = b.take(two_d)
+        for i, blob in zip(two_d.tolist(), _blobs(*sub.runs(SPEED_BANDS)), strict=True):
+            speed[i] = blob
     cols = [
         batch.upload_id.tolist(),
-        batch.component_id.tolist(),
-        [h.quantity for h in hs],
-        bind_values(conn, t, "period_start", [h.period_start for h in hs]),
-        bind_values(conn, t, "period_end", [h.period_end for h in hs]),
-        [len(h.pressure_low_bar) for h in hs],
-        [0 if h.speed_low_rpm is None else len(h.speed_low_rpm) for h in hs],
-        pressure,
+        plan.component_id.tolist(),
+        b.quantity.tolist(),
+        bind_times(conn, t, "period_start", b.period_start_ns),
+        bind_times(conn, t, "period_end", b.period_end_ns),
+        b.n_pressure.tolist(),
+        b.n_speed.tolist(),
+        _blobs(*b.runs(PRESSURE_BANDS)),
         speed,
-        hours,
+        _blobs(b.hours, b.hours_offset),
         total.tolist(),
-        [h.mean_speed_rpm for h in hs],
-        [sha for _, _, sha in plan.histograms],
+        [None if x != x else x for x in b.mean_speed_rpm.tolist()],  # nan: not given
+        plan.sha,
     ]
     insert_rows(conn, t, HISTOGRAM_COLUMNS, list(zip(*cols, strict=True)))
+
+
+PRESSURE_BANDS = ("pressure_low_bar", "pressure_high_bar")
+"""A histogram row's ``pressure_bands`` blob: its low edges, then its high edges."""
+SPEED_BANDS = ("speed_low_rpm", "speed_high_rpm")
+"""A histogram row's ``speed_bands`` blob: its low edges, then its high edges."""
 
 
 def _insert_readings(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001
@@ -332,14 +341,22 @@ def _insert_readings(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN
         conn.execute(store.reading.insert(), rows)
 
 
-def _select_for_ledger(items: list[tuple[Histogram, int, int]]) -> list[tuple]:
-    """One histogram per (upload, component): a pressure-by-speed matrix wins."""
-    chosen: dict[tuple, tuple] = {}
-    for h, comp, upload_id in items:
-        k = (upload_id, comp)
-        if k not in chosen or h.quantity == QUANTITY_PRESSURE_SPEED:
-            chosen[k] = (h, comp, upload_id)
-    return list(chosen.values())
+def _select_for_ledger(plan, upload_ids: np.ndarray, skip: set[int]) -> np.ndarray:  # noqa: ANN001
+    """Histograms for the ledger, one per (upload, component) not in ``skip``: the last
+    pressure-by-speed matrix if there is one, else the first histogram; in order of
+    first appearance of the (upload, component)."""
+    rows = np.flatnonzero(~np.isin(plan.component_id, list(skip)))
+    if not rows.size:
+        return rows
+    key = group_ids([pd.factorize(upload_ids[rows])[0], pd.factorize(plan.component_id[rows])[0]])
+    first = np.unique(key, return_index=True)[1]
+    chosen = rows[first]
+    ps = np.flatnonzero(plan.batch.quantity[rows] == QUANTITY_PRESSURE_SPEED)
+    if ps.size:
+        last = np.full(first.size, -1, dtype=np.int64)
+        np.maximum.at(last, key[ps], ps)
+        chosen = np.where(last >= 0, rows[np.maximum(last, 0)], chosen)
+    return chosen
 
 
 def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable) -> None:
@@ -348,16 +365,19 @@ def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable) -> Non
     values = batch_metrics(conn, batch, table)
     values["hour_meter_end"] = batch.hour_meter_end
     values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
-    ends = pd.to_datetime(pd.Series(batch.period_end), utc=True)
-    ends_ns = ends.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
+    ends_ns = batch.period_end_ns
+    if ends_ns is None:
+        ends = pd.to_datetime(pd.Series(batch.period_end), utc=True)
+        ends_ns = ends.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
     order = _ordered(batch, ends_ns)
     comp = batch.component_id[order]
     since = pd.Series(ends_ns[order]).groupby(comp).min()
     base, behind = _tails(conn, since)
     sorted_values = {k: np.asarray(v)[order] for k, v in values.items()}
     cum = _running_totals(comp, sorted_values)
+    at = pd.Index(list(base), dtype=np.int64).get_indexer(comp)  # -1: no earlier row
     for c in CUM_COLUMNS:
-        b = np.array([base.get(x, {}).get(c, 0.0) for x in comp.tolist()])
+        b = np.array([totals[c] for totals in base.values()] + [0.0])[at]
         values[c] = np.empty(len(batch))
         values[c][order] = cum[c] + b
     rows = _ledger_tuples(conn, batch, values, order, raw=False)

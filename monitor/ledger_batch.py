@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 from sqlalchemy import Connection, Table
 
-from monitor.records import QUANTITY_PRESSURE_SPEED, Histogram
+from monitor.records import QUANTITY_PRESSURE_SPEED, Histogram, HistogramBatch, utc_datetimes
 
 
 @dataclass
@@ -47,8 +47,8 @@ class Batch:
     """One histogram per (upload, component), as arrays of equal length N.
 
     ``period_end`` holds the upload's period end per row, either as datetimes
-    (ingest) or as the database's own stored value (recompute reads it raw and
-    writes it back unchanged).
+    (ingest, which also gives them as ``period_end_ns``) or as the database's own
+    stored value (recompute reads it raw and writes it back unchanged).
     """
 
     component_id: np.ndarray
@@ -57,6 +57,7 @@ class Batch:
     hour_meter_start: np.ndarray
     hour_meter_end: np.ndarray
     groups: list[Group]
+    period_end_ns: np.ndarray | None = None  # ingest: the same ends [ns since the epoch]
 
     def __len__(self) -> int:
         return int(self.component_id.size)
@@ -94,6 +95,53 @@ def batch_from_histograms(items: list[tuple[Histogram, int, int]]) -> Batch:
         hour_meter_start=np.array([it[0].hour_meter_start for it in items], dtype=float),
         hour_meter_end=np.array([it[0].hour_meter_end for it in items], dtype=float),
         groups=groups,
+    )
+
+
+def batch_from_columns(
+    b: HistogramBatch, rows: np.ndarray, component_id: np.ndarray, upload_id: np.ndarray
+) -> Batch:
+    """A batch of the histograms ``rows`` of ``b``, with their component and upload ids
+    (arrays aligned with ``rows``), in ``rows`` order."""
+    rows = np.asarray(rows, dtype=np.int64)
+    is_ps = (b.quantity[rows] == QUANTITY_PRESSURE_SPEED).astype(np.int64)
+    n_p, n_s = b.n_pressure[rows], b.n_speed[rows]
+    codes, uniq = pd.factorize((is_ps << 40) | (n_p << 20) | n_s)
+    order = np.argsort(codes, kind="stable")
+    bounds = np.r_[0, np.cumsum(np.bincount(codes, minlength=len(uniq)))]
+    groups = []
+    for j in range(len(uniq)):
+        idx = order[bounds[j] : bounds[j + 1]]
+        groups.append(_column_group(b, rows[idx], idx, bool(is_ps[idx[0]])))
+    ends = b.period_end_ns[rows]
+    return Batch(
+        component_id=np.asarray(component_id, dtype=np.int64),
+        upload_id=np.asarray(upload_id, dtype=np.int64),
+        period_end=utc_datetimes(ends),
+        hour_meter_start=b.hour_meter_start[rows],
+        hour_meter_end=b.hour_meter_end[rows],
+        groups=groups,
+        period_end_ns=ends,
+    )
+
+
+def _column_group(b: HistogramBatch, src: np.ndarray, idx: np.ndarray, is_ps: bool) -> Group:
+    """The group of batch rows ``idx`` (histograms ``src`` of ``b``, all of one shape)."""
+    p, s = int(b.n_pressure[src[0]]), int(b.n_speed[src[0]])
+
+    def gather(flat: np.ndarray, offset: np.ndarray, width: int) -> np.ndarray:
+        return flat[offset[src][:, None] + np.arange(width)]
+
+    hours = gather(b.hours, b.hours_offset, p * max(s, 1))
+    return Group(
+        quantity=b.quantity[src[0]],
+        rows=idx,
+        p_lo=gather(b.pressure_low_bar, b.pressure_offset, p),
+        p_hi=gather(b.pressure_high_bar, b.pressure_offset, p),
+        s_lo=gather(b.speed_low_rpm, b.speed_offset, s) if is_ps else None,
+        s_hi=gather(b.speed_high_rpm, b.speed_offset, s) if is_ps else None,
+        hours=hours.reshape(len(src), p, s) if is_ps else hours,
+        mean_speed=b.mean_speed_rpm[src],
     )
 
 
@@ -264,6 +312,15 @@ def bind_values(conn: Connection, table: Table, column: str, values: list) -> li
         return values
     seen: dict = {}
     return [seen[v] if v in seen else seen.setdefault(v, proc(v)) for v in values]
+
+
+def bind_times(conn: Connection, table: Table, column: str, ns: np.ndarray) -> list:
+    """Timestamps [int64 ns since the epoch, UTC] as SQLAlchemy would bind them as
+    datetimes; each distinct value is converted once."""
+    uniq, inv = np.unique(ns, return_inverse=True)
+    values = np.empty(uniq.size, dtype=object)
+    values[:] = bind_values(conn, table, column, utc_datetimes(uniq))
+    return values[inv.reshape(-1)].tolist()
 
 
 def insert_rows(conn: Connection, table: Table, columns: list[str], rows: list[tuple]) -> None:

@@ -105,7 +105,7 @@ def ingest_bytes(engine: Engine, data: bytes, name: str, *, dry_run: bool = Fals
         result = FileResult(
             name,
             VALID if dry_run else ACCEPTED,
-            histograms=len(plan.histograms),
+            histograms=plan.n_histograms,
             readings=len(plan.readings),
             skipped=plan.skipped,
         )
@@ -126,7 +126,7 @@ def _insert_file(conn, parsed: ParsedFile, plan: checks.UploadPlan) -> int:  # n
             sha256=parsed.content_sha256,
             name=parsed.name,
             received_at=datetime.now(UTC),
-            n_histograms=len(plan.histograms),
+            n_histograms=plan.n_histograms,
             n_readings=len(plan.readings),
         )
     ).inserted_primary_key[0]

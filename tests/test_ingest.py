@@ -159,6 +159,62 @@ def test_mpa_header_and_gap_between_bands():
     np.testing.assert_allclose(p.histograms[0].pressure_high_bar, [100, 300])
 
 
+MIXED = (  # invented: one plain histogram, one 2 x 2 matrix with a cell left out, one plain
+    "unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
+    "pressure_low_bar,pressure_high_bar,speed_low_rpm,speed_high_rpm,hours\n"
+    "LR-101,left,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,10,16,pressure,100,200,,,2\n"
+    "LR-101,left,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,10,16,pressure,0,100,,,4\n"
+    "LR-101,right,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,10,16,pressure_speed,0,100,0,1000,1\n"
+    "LR-101,right,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,10,16,pressure_speed,100,200,1000,2000,3\n"
+    "LR-101,right,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,10,16,pressure_speed,0,100,1000,2000,2\n"
+    "TM-201,drive,2026-04-01T00:00:00Z,2026-04-02T00:00:00Z,50,51,pressure,0,300,,,1\n"
+)
+
+
+def test_batch_holds_every_histogram_end_to_end():
+    p = parse_file(MIXED.encode(), "m.csv")
+    assert p.ok, [str(x) for x in p.problems]
+    b = p.batch
+    assert len(b) == 3 and b.quantity.tolist() == ["pressure", "pressure_speed", "pressure"]
+    assert b.n_pressure.tolist() == [2, 2, 1] and b.n_speed.tolist() == [0, 2, 0]
+    # bands sorted by low edge within each histogram, histograms in file order
+    assert b.pressure_low_bar.tolist() == [0, 100, 0, 100, 0]
+    assert b.speed_low_rpm.tolist() == [0, 1000]
+    # the matrix row by row: (0-100 bar: 1 h, 2 h), (100-200 bar: not given -> 0 h, 3 h)
+    assert b.hours.tolist() == [4, 2, 1, 2, 0, 3, 1]
+    assert b.hours_offset.tolist() == [0, 2, 6, 7]
+    assert b.line.tolist() == [2, 4, 7]
+    assert b.period_start_ns.tolist() == [1775001600 * 10**9] * 3  # 2026-04-01T00:00Z
+    matrix = p.histograms[1]
+    np.testing.assert_array_equal(matrix.hours, [[1, 2], [0, 3]])
+    np.testing.assert_array_equal(matrix.speed_high_rpm, [1000, 2000])
+    assert np.shares_memory(matrix.hours, b.hours)  # records are views of the batch
+
+
+def test_batch_take_and_records_round_trip():
+    p = parse_file(MIXED.encode(), "m.csv")
+    part = p.batch.take(np.array([2, 1]))
+    assert [h.unit for h in part.histograms()] == ["TM-201", "LR-101"]
+    np.testing.assert_array_equal(part.histogram(1).hours, [[1, 2], [0, 3]])
+    again = type(p.batch).from_histograms(p.histograms)
+    for a, b in zip(again.histograms(), p.histograms, strict=True):
+        assert (a.unit, a.quantity, a.period_end) == (b.unit, b.quantity, b.period_end)
+        assert a.line == b.line and a.mean_speed_rpm == b.mean_speed_rpm
+        np.testing.assert_array_equal(a.hours, b.hours)
+    with pytest.raises(ValueError, match="timezone-aware"):
+        h = p.histograms[0]
+        h.period_start = h.period_start.replace(tzinfo=None)
+        type(p.batch).from_histograms([h])
+
+
+def test_assigning_records_replaces_the_batch():
+    p = parse_file(MIXED.encode(), "m.csv")
+    first = p.histograms[:1]
+    p.histograms = first
+    assert p.batch is None and p.histograms == first
+    assert len(p.histogram_batch()) == 1
+
+
 def test_blank_lines_keep_line_numbers():
     raw = (DATA / "bad_band_edges.csv").read_text().replace("\n", "\n\n", 1)
     (prob,) = parse_file(raw.encode(), "b.csv").problems

@@ -258,3 +258,52 @@ def test_recompute_keeps_the_schema_and_rolls_back_whole(sqlite_url):
     service.recompute(engine)
     command.check(store.alembic_config(sqlite_url))  # same tables and indexes as before
     engine.dispose()
+
+
+def test_batch_hashes_equal_one_at_a_time_on_mixed_shapes():
+    """Hashes of a whole parsed batch (plain histograms of several band counts and
+    pressure-by-speed matrices, laid out once) are the digests of one record at a time."""
+    import sys
+
+    sys.path.insert(0, str(Path(__file__).parent))
+    from bench_ingest import make_csv  # seeded invented fleet, 30 % matrices
+
+    parsed = parse_file(make_csv(6000, speed_fraction=0.3), "mixed.csv")
+    assert parsed.ok and len(set(parsed.batch.n_pressure.tolist())) > 3
+    assert (parsed.batch.n_speed > 0).any() and (parsed.batch.n_speed == 0).any()
+    want = [checks.histogram_sha(h) for h in parsed.histograms]
+    assert checks.batch_shas(parsed.batch) == want
+    rows = np.arange(len(want))[::-3]
+    assert checks.batch_shas(parsed.batch.take(rows)) == [want[i] for i in rows]
+
+
+def test_ingest_stores_what_the_records_say(sqlite_url):
+    """Every stored histogram row equals its parsed record packed one at a time: bands,
+    hours, total, mean speed, period and content hash; one upload per unit and period."""
+    engine = service.init_db(sqlite_url)
+    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    later = BOTH_QUANTITIES.replace("04-02", "04-06").replace("04-01", "04-05")
+    files = [*_sample_files(), ("later.csv", later.replace(",900,906,", ",910,916,").encode())]
+    records = []
+    for name, data in files:
+        res = service.upload(engine, data, name)
+        assert res.status == service.ACCEPTED
+        if not res.skipped:  # upload.json repeats stored histograms
+            records += parse_file(data, name).histograms
+    t, u = store.histogram, store.upload
+    with engine.connect() as conn:
+        rows = conn.execute(select(t, u.c.unit_id).join(u).order_by(t.c.id)).mappings().all()
+    assert len(rows) == len(records)
+    for h, r in zip(records, rows, strict=True):
+        speed = None
+        if h.speed_low_rpm is not None:
+            speed = store.pack(np.r_[h.speed_low_rpm, h.speed_high_rpm])
+        assert r["pressure_bands"] == store.pack(np.r_[h.pressure_low_bar, h.pressure_high_bar])
+        assert (r["speed_bands"], r["hours"]) == (speed, store.pack(h.hours))
+        assert r["total_hours"] == float(np.sum(np.asarray(h.hours).reshape(1, -1), axis=1)[0])
+        assert r["mean_speed_rpm"] == h.mean_speed_rpm and r["quantity"] == h.quantity
+        assert pd.Timestamp(r["period_start"], tz="UTC") == h.period_start
+        assert r["content_sha256"] == checks.histogram_sha(h)
+    uploads = {(r["upload_id"], r["unit_id"]) for r in rows}
+    assert len(uploads) == len({r["upload_id"] for r in rows})
+    engine.dispose()
