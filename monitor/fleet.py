@@ -114,16 +114,10 @@ def as_of_instant(as_of: date) -> datetime:
 # --- bearing life ----------------------------------------------------------------------
 
 
-def _diff(df: pd.DataFrame, col: str, lower: str) -> np.ndarray:
-    """now_<col> - <lower>_<col>, with a missing lower point read as zero."""
-    now = df[f"now_{col}"].to_numpy(float)
-    low = np.nan_to_num(df[f"{lower}_{col}"].to_numpy(float), nan=0.0)
-    return np.where(np.isnan(now), 0.0, now - low)
-
-
-def _window_lower(df: pd.DataFrame) -> pd.DataFrame:
-    """Rate-window start: the window row, clamped so it is never before the rebuild."""
-    out = df.copy()
+def _window_lower(df: pd.DataFrame) -> dict[str, np.ndarray]:
+    """Rate-window start (``lo_<cum column>``): the window row, clamped so it is never
+    before the rebuild."""
+    out = {}
     win_h = df["win_cum_hours"].to_numpy(float)
     base_h = np.nan_to_num(df["base_cum_hours"].to_numpy(float), nan=0.0)
     use_base = np.isnan(win_h) | (win_h < base_h)
@@ -139,6 +133,14 @@ def _window_lower(df: pd.DataFrame) -> pd.DataFrame:
         b = df[f"base_{t}"].to_numpy(float)
         out[f"lo_{t}"] = np.where(use_base, b, w)
     return out
+
+
+def _diff(df: pd.DataFrame, col: str, lower: str, lo: dict | None = None) -> np.ndarray:
+    """now_<col> - <lower>_<col>, with a missing lower point read as zero (``lower`` "lo":
+    the window start of :func:`_window_lower`, given as ``lo``)."""
+    now = df[f"now_{col}"].to_numpy(float)
+    low = lo[f"lo_{col}"] if lower == "lo" else df[f"{lower}_{col}"].to_numpy(float)
+    return np.where(np.isnan(now), 0.0, now - np.nan_to_num(low, nan=0.0))
 
 
 def bearing_frame(inputs: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
@@ -165,24 +167,24 @@ def bearing_frame(inputs: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
     ledger damage divided by a1 (ISO 281:2007, reliability factor).
     """
     a1 = float(bearings.reliability_factor(params.reliability_pct))
-    df = _window_lower(inputs)
-    damage_life = _diff(df, "cum_damage", "base")
-    win_hours = _diff(df, "cum_hours", "lo")
-    win_damage = _diff(df, "cum_damage", "lo")
+    lo = _window_lower(inputs)
+    damage_life = _diff(inputs, "cum_damage", "base")
+    win_hours = _diff(inputs, "cum_hours", "lo", lo)
+    win_damage = _diff(inputs, "cum_damage", "lo", lo)
     consumed = _consumed_fraction(damage_life, a1)
     rate = _damage_rate_per_h(win_damage, win_hours, a1)
     return pd.DataFrame(
         {
-            "hours_since_rebuild": _diff(df, "cum_meter_hours", "base"),
+            "hours_since_rebuild": _diff(inputs, "cum_meter_hours", "base"),
             "consumed_fraction": consumed,
             "damage_rate_per_h": rate,
             "remaining_bearing_h": lifecycle.remaining_bearing_h(consumed, rate),
             "window_hours": win_hours,
-            "relief_hours": _diff(df, "cum_relief_hours", "lo"),
-            "cutoff_hours": _diff(df, "cum_cutoff_hours", "lo"),
-            "relief_heat_kwh": _diff(df, "cum_relief_heat_kwh", "lo"),
+            "relief_hours": _diff(inputs, "cum_relief_hours", "lo", lo),
+            "cutoff_hours": _diff(inputs, "cum_cutoff_hours", "lo", lo),
+            "relief_heat_kwh": _diff(inputs, "cum_relief_heat_kwh", "lo", lo),
             "utilisation_h_per_day": _utilisation_h_per_day(
-                _diff(df, "cum_meter_hours", "month"), params.utilisation_days
+                _diff(inputs, "cum_meter_hours", "month"), params.utilisation_days
             ),
         },
         index=inputs.index,
@@ -339,41 +341,65 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
         ``n_wear_readings, case_drain_level_lpm [L/min], case_drain_slope_lpm_per_h
         [L/min/h], remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high [h],
         case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``.
+
+    Notes
+    -----
+    Columns at once: the readings of all components are one pair of arrays, each
+    component a contiguous span; the trend and the fit before the latest reading
+    come from one batched Theil-Sen (:func:`monitor.wear.theil_sen_batch_and_before_last`).
+    Series with non-finite values or an invalid limit take :func:`_wear_one`, the
+    one-at-a-time definition the batch reproduces (``tests/test_perf_equivalence.py``).
     """
-    used = [c for c in inputs.columns if c in _WEAR_KEYS]
-    records = inputs[used].to_dict("records")
-    limits = [case_drain_limit_lpm(r) for r in records]
-    res = np.full((len(records), 5), np.nan)
-    count, step = np.zeros(len(records), int), np.zeros(len(records), bool)
-    spans, cols = _reading_spans(readings)
-    series = _wear_series(records, spans, cols)
-    rows = np.fromiter(series, dtype=np.int64, count=len(series))
-    x_all = np.concatenate([series[i][0] for i in rows]) if rows.size else np.zeros(0)
-    y_all = np.concatenate([series[i][1] for i in rows]) if rows.size else np.zeros(0)
-    st = _SpanStats(x_all, y_all, np.array([series[i][0].size for i in rows], dtype=np.int64))
-    count[rows] = st.n
-    valid = np.array([_valid_limit(limits[i]) for i in rows], dtype=bool)
+    limit, has_limit = _limits(inputs)
+    sr = _Series.build(inputs, readings)
+    res = np.full((len(inputs), 5), np.nan)
+    step = np.zeros(len(inputs), bool)
+    st = _SpanStats(sr.x, sr.y, sr.n)
+    valid = ~has_limit[sr.rows] | (np.isfinite(limit[sr.rows]) & (limit[sr.rows] > 0))
     fast = st.finite & valid  # the others keep the one-at-a-time path, as they always did
     m = params.min_wear_readings
-    trend_in = rows[fast & (st.n >= m) & (st.x_min != st.x_max)]
-    step_in = rows[fast & (st.n - 1 >= m) & (st.p_min != st.p_max)]
-    fit = wear.theil_sen_batch([series[i][0] for i in trend_in], [series[i][1] for i in trend_in])
-    before = wear.theil_sen_batch(
-        [series[i][0][:-1] for i in step_in], [series[i][1][:-1] for i in step_in]
+    trend = fast & (st.n >= m) & (st.x_min != st.x_max)
+    fit, before = wear.theil_sen_batch_and_before_last(
+        [sr.x[a:b] for a, b in sr.bounds(trend)], [sr.y[a:b] for a, b in sr.bounds(trend)]
     )
-    step_fit = dict(zip(step_in.tolist(), before, strict=True))
-    for i, (slope, intercept, low, high) in zip(trend_in.tolist(), fit, strict=True):
-        level = intercept + slope * _now_fast(records[i], series[i][0])
-        rem = (math.nan,) * 3
-        if limits[i] is not None:
-            rem = wear.remaining_wear_h(limits[i], level, slope, low, high)
-        res[i] = (level, slope, *rem)
-    for i, ok in zip(rows.tolist(), fast.tolist(), strict=True):
-        x, y = series[i]
-        if ok:
-            step[i] = _step_from_fit(x, y, step_fit.get(i), params)
-        else:
-            res[i], step[i] = _wear_one(x, y, limits[i], records[i], params)
+    rows = sr.rows[trend]
+    level = fit[:, 1] + fit[:, 0] * _now_fast(inputs, rows, st.x_max[trend])
+    res[rows, 0], res[rows, 1] = level, fit[:, 0]
+    lim = has_limit[rows]
+    res[rows[lim], 2:] = wear.remaining_wear_h_batch(
+        limit[rows[lim]], level[lim], fit[lim, 0], fit[lim, 2], fit[lim, 3]
+    )
+    # fit of the readings before the latest: only where it has enough readings of its own
+    with_fit = (st.n[trend] - 1 >= m) & (st.p_min[trend] != st.p_max[trend])
+    step_level = np.full(sr.rows.size, np.nan)
+    step_level[np.flatnonzero(trend)[with_fit]] = (
+        before[with_fit, 1] + before[with_fit, 0] * sr.x[sr.last[trend][with_fit]]
+    )
+    step[sr.rows[fast]] = _steps(sr, fast, trend, with_fit, step_level, params)
+    for j in np.flatnonzero(~fast).tolist():
+        i = int(sr.rows[j])
+        x, y = sr.series(j)
+        row = _row(inputs, i)
+        res[i], step[i] = _wear_one(x, y, None if not has_limit[i] else limit[i], row, params)
+    return _wear_out(res, sr, limit, step, inputs.index)
+
+
+def _steps(sr, fast, trend, with_fit, step_level, params: StatusParams) -> np.ndarray:  # noqa: ANN001
+    """:func:`case_drain_step` of the finite series (``fast``), from the fitted level
+    before the latest reading where there is one, else the median of the earlier ones."""
+    level = step_level.copy()
+    has_fit = np.zeros(sr.rows.size, bool)
+    has_fit[np.flatnonzero(trend)[with_fit]] = True
+    for j in np.flatnonzero(fast & ~has_fit & (sr.n >= 2)).tolist():
+        level[j] = float(np.median(sr.series(j)[1][:-1]))
+    ok = fast & (sr.n >= 2)
+    y_last = np.where(ok, sr.y[np.where(ok, sr.last, 0)], np.nan)
+    with np.errstate(invalid="ignore"):
+        flag = ok & (level > 0) & (y_last > params.case_drain_step_factor * level)
+    return flag[fast]
+
+
+def _wear_out(res: np.ndarray, sr, limit, step, index) -> pd.DataFrame:  # noqa: ANN001
     names = (
         "case_drain_level_lpm",
         "case_drain_slope_lpm_per_h",
@@ -381,11 +407,132 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
         "remaining_wear_h_low",
         "remaining_wear_h_high",
     )
-    out = pd.DataFrame(res, columns=list(names), index=inputs.index)
+    out = pd.DataFrame(res, columns=list(names), index=index)
+    count = np.zeros(len(index), int)
+    count[sr.rows] = sr.n
     out["n_wear_readings"] = count
-    out["case_drain_limit_lpm"] = np.array([np.nan if v is None else v for v in limits], float)
+    out["case_drain_limit_lpm"] = limit
     out["case_drain_step"] = step
     return out
+
+
+_WEAR_KEYS = (
+    "component_id",
+    "now_hour_meter_end",
+    "m_name",
+    "m_case_drain_limit_lpm",
+    "m_case_drain_limit_factor",
+    "m_case_drain_new_lpm",
+    "m_case_drain_test_dp_bar",
+    "m_case_drain_test_temp_c",
+    "m_case_drain_flushing_lpm",
+    "oil_name",
+    "oil_iso_vg",
+    "oil_viscosity_index",
+    "oil_nu40_mm2s",
+    "oil_nu100_mm2s",
+)
+"""Columns of a status-inputs row that the wear trend reads."""
+
+
+def _row(inputs: pd.DataFrame, i: int) -> dict:
+    """The wear columns of one inputs row as a dict (absent columns left out)."""
+    return {c: inputs[c].iat[i] for c in _WEAR_KEYS if c in inputs.columns}
+
+
+def _float_col(df: pd.DataFrame, name: str) -> np.ndarray:
+    """A column as float (None and non-numbers -> nan); all nan if the column is absent."""
+    if name not in df.columns:
+        return np.full(len(df), np.nan)
+    return pd.to_numeric(df[name], errors="coerce").to_numpy(float, na_value=np.nan)
+
+
+def _limits(inputs: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`case_drain_limit_lpm` of every row: the limit [L/min] (nan: none) and
+    whether there is one."""
+    direct = _float_col(inputs, "m_case_drain_limit_lpm")
+    factor = _float_col(inputs, "m_case_drain_limit_factor")
+    new = _float_col(inputs, "m_case_drain_new_lpm")
+    by_factor = ~np.isnan(factor) & ~np.isnan(new)
+    has = ~np.isnan(direct) | by_factor
+    limit = np.where(~np.isnan(direct), direct, np.where(by_factor, factor * new, np.nan))
+    return limit, has
+
+
+def _now_fast(inputs: pd.DataFrame, rows: np.ndarray, x_max: np.ndarray) -> np.ndarray:
+    """:func:`_now_hour_meter` of finite series: the later of the last upload's hour
+    meter (0 or missing: not known) and the highest reading [h]."""
+    last = _float_col(inputs, "now_hour_meter_end")[rows]
+    known = ~np.isnan(last) & (last != 0)
+    return np.where(known & (x_max <= last), last, x_max)
+
+
+class _Series:
+    """Each input row's readings as one span of two concatenated arrays: hour meter
+    [h] and normalised case drain [L/min], normalised in one call per model and oil."""
+
+    def __init__(self, rows, n, x, y) -> None:  # noqa: ANN001
+        self.rows, self.n, self.x, self.y = rows, n, x, y
+        self.start = np.r_[0, np.cumsum(n)[:-1]].astype(np.int64) if n.size else n
+        self.last = self.start + n - 1
+
+    def series(self, j: int) -> tuple[np.ndarray, np.ndarray]:
+        a, b = int(self.start[j]), int(self.start[j] + self.n[j])
+        return self.x[a:b], self.y[a:b]
+
+    def bounds(self, mask: np.ndarray) -> list[tuple[int, int]]:
+        a = self.start[mask]
+        return list(zip(a.tolist(), (a + self.n[mask]).tolist(), strict=True))
+
+    @classmethod
+    def build(cls, inputs: pd.DataFrame, readings: pd.DataFrame) -> _Series:
+        cid = inputs["component_id"].to_numpy()
+        empty = np.zeros(0, np.int64)
+        if readings.empty or cid.size == 0:
+            return cls(empty, empty, np.zeros(0), np.zeros(0))
+        rd = readings
+        if not rd["component_id"].is_monotonic_increasing:
+            rd = rd.sort_values("component_id", kind="stable")  # time order kept within
+        rid = rd["component_id"].to_numpy(np.int64)
+        ids, first, counts = np.unique(rid, return_index=True, return_counts=True)
+        pos = np.minimum(np.searchsorted(ids, cid), ids.size - 1)
+        rows = np.flatnonzero(ids[pos] == cid)
+        n = counts[pos[rows]].astype(np.int64)
+        out_start = np.r_[0, np.cumsum(n)[:-1]]
+        take = np.arange(int(n.sum())) + np.repeat(first[pos[rows]] - out_start, n)
+        cols = [
+            rd[c].to_numpy(float)[take]
+            for c in ("hour_meter", "case_drain_lpm", "test_pressure_bar", "oil_temp_c")
+        ]
+        y = _normalised_by_group(inputs, rows, n, cols[1:])
+        return cls(rows, n, cols[0], y)
+
+
+def _normalised_by_group(
+    inputs: pd.DataFrame, rows: np.ndarray, n: np.ndarray, cols: list[np.ndarray]
+) -> np.ndarray:
+    """Readings normalised in one call per component model and oil (elementwise, so the
+    same numbers as one call per component)."""
+    keys = [
+        inputs[c].to_numpy(object)[rows] if c in inputs.columns else [None] * rows.size
+        for c in ("m_name", "oil_name")
+    ]
+    groups: dict[tuple, int] = {}
+    first: list[int] = []
+    row_group = np.empty(rows.size, np.int64)
+    for j, key in enumerate(zip(*keys, strict=True)):
+        g = groups.setdefault(key, len(groups))
+        if g == len(first):
+            first.append(j)
+        row_group[j] = g
+    elem_group = np.repeat(row_group, n)
+    y = np.empty(elem_group.size)
+    for g, j in enumerate(first):
+        sel = elem_group == g if len(first) > 1 else slice(None)
+        row = _row(inputs, int(rows[j]))
+        line = oil_viscosity_line(row)
+        y[sel] = normalised_case_drain(cols[0][sel], cols[1][sel], cols[2][sel], row, line)
+    return y
 
 
 class _SpanStats:
@@ -410,64 +557,8 @@ class _SpanStats:
             self.p_max = np.maximum.reduceat(hi, starts)
 
 
-def _valid_limit(limit: float | None) -> bool:
-    return limit is None or (math.isfinite(limit) and limit > 0)
-
-
-_WEAR_KEYS = frozenset(
-    {
-        "component_id",
-        "now_hour_meter_end",
-        "m_name",
-        "m_case_drain_limit_lpm",
-        "m_case_drain_limit_factor",
-        "m_case_drain_new_lpm",
-        "m_case_drain_test_dp_bar",
-        "m_case_drain_test_temp_c",
-        "m_case_drain_flushing_lpm",
-        "oil_name",
-        "oil_iso_vg",
-        "oil_viscosity_index",
-        "oil_nu40_mm2s",
-        "oil_nu100_mm2s",
-    }
-)
-"""Columns of a status-inputs row that the wear trend reads."""
-
-
-def _now_fast(row: Mapping, x: np.ndarray) -> float:
-    """:func:`_now_hour_meter` for finite readings ``x``, without numpy's nanmax."""
-    last = _num(row.get("now_hour_meter_end")) or math.nan
-    top = float(x.max())
-    return top if math.isnan(last) else max(last, top)
-
-
 def _now_hour_meter(row: Mapping, x: np.ndarray) -> float:
     return float(np.nanmax([_num(row.get("now_hour_meter_end")) or np.nan, x.max()]))
-
-
-def _wear_series(records: list[dict], spans: dict, cols: list[np.ndarray]) -> dict:
-    """Per component row with readings: (hour meter [h], normalised flow [L/min]).
-
-    Readings are normalised in one call per component model and oil."""
-    by_key: dict[tuple, list[int]] = {}
-    for i, row in enumerate(records):
-        if row["component_id"] in spans:
-            by_key.setdefault((row.get("m_name"), row.get("oil_name")), []).append(i)
-    out = {}
-    for idx in by_key.values():
-        row = records[idx[0]]
-        sl = [spans[records[i]["component_id"]] for i in idx]
-        take = np.concatenate([np.arange(s.start, s.stop) for s in sl])
-        y = normalised_case_drain(
-            cols[1][take], cols[2][take], cols[3][take], row, oil_viscosity_line(row)
-        )
-        pos = 0
-        for i, s in zip(idx, sl, strict=True):
-            k = s.stop - s.start
-            out[i] = (cols[0][s], y[pos : pos + k])
-            pos += k
-    return dict(sorted(out.items()))
 
 
 def _wear_one(x, y, limit, row, params) -> tuple[tuple, bool]:  # noqa: ANN001
@@ -485,54 +576,55 @@ def _wear_one(x, y, limit, row, params) -> tuple[tuple, bool]:  # noqa: ANN001
     return vals, case_drain_step(x, y, params)
 
 
-def _step_from_fit(x, y, fit, params: StatusParams) -> bool:  # noqa: ANN001
-    """:func:`case_drain_step` with the Theil-Sen fit of the earlier readings given."""
-    if y.size < 2:
-        return False
-    if fit is not None:
-        level = fit[1] + fit[0] * x[-1]
-    else:
-        level = float(np.median(y[:-1]))
-    return bool(level > 0 and y[-1] > params.case_drain_step_factor * level)
-
-
-def _reading_spans(readings: pd.DataFrame) -> tuple[dict, list[np.ndarray]]:
-    """Slices of each component's readings (sorted by time) and the value arrays."""
-    if readings.empty:
-        return {}, []
-    rd = readings.sort_values("component_id", kind="stable")  # time order kept within
-    cid = rd["component_id"].to_numpy()
-    starts = np.flatnonzero(np.r_[True, cid[1:] != cid[:-1]])
-    ends = np.r_[starts[1:], cid.size]
-    spans = {cid[s]: slice(s, e) for s, e in zip(starts, ends, strict=True)}
-    cols = [
-        rd[c].to_numpy(float)
-        for c in ("hour_meter", "case_drain_lpm", "test_pressure_bar", "oil_temp_c")
-    ]
-    return spans, cols
-
-
 # --- assembling the status -------------------------------------------------------------
 
 
+_FLAG_SETS = tuple(
+    tuple(name for bit, name in enumerate(FLAGS) if code >> bit & 1) for code in range(16)
+)
+"""The flags of each 4-bit code (bit i set: ``FLAGS[i]`` is raised)."""
+
+
 def _flags(df: pd.DataFrame, params: StatusParams) -> list[list[str]]:
-    frac = np.where(
-        df["window_hours"] > 0,
-        df["relief_hours"] / df["window_hours"].where(df["window_hours"] > 0, 1.0),
-        0.0,
+    """Each row's raised flags, in the order of :data:`FLAGS` (a new list per row)."""
+    wh, rh = df["window_hours"].to_numpy(float), df["relief_hours"].to_numpy(float)
+    frac = np.where(wh > 0, rh / np.where(wh > 0, wh, 1.0), 0.0)
+    age = df["data_age_days"].to_numpy(float)
+    stale = np.isnan(age) | (age > params.stale_days)
+    relief = ~df["has_cutoff"].to_numpy(bool) & (frac > params.heavy_relief_fraction)
+    few = ~np.isnan(df["case_drain_limit_lpm"].to_numpy(float)) & (
+        df["n_wear_readings"].to_numpy() < params.min_wear_readings
     )
-    stale = df["data_age_days"].isna() | (df["data_age_days"] > params.stale_days)
-    relief = (~df["has_cutoff"]) & (frac > params.heavy_relief_fraction)
-    few = df["case_drain_limit_lpm"].notna() & (df["n_wear_readings"] < params.min_wear_readings)
-    out = []
-    for s, st, r, f in zip(stale, df["case_drain_step"], relief, few, strict=True):
-        out.append([name for name, on in zip(FLAGS, (s, st, r, f), strict=True) if on])
+    step = df["case_drain_step"].to_numpy(bool)
+    code = stale.astype(int) + 2 * step + 4 * relief + 8 * few
+    return [list(_FLAG_SETS[c]) for c in code.tolist()]
+
+
+def _limiting(bearing: np.ndarray, wear_h: np.ndarray) -> tuple[np.ndarray, list]:
+    """:func:`monitor.lifecycle.limiting_mode` of every row: the smaller of the two
+    estimates [h] (nan: neither) and "bearing" (also on a tie), "wear" or None."""
+    no_b, no_w = np.isnan(bearing), np.isnan(wear_h)
+    with np.errstate(invalid="ignore"):
+        use_b = no_w | (~no_b & (bearing <= wear_h))
+    names = np.where(use_b, "bearing", "wear").astype(object)
+    names[no_b & no_w] = None
+    return np.where(no_b & no_w, np.nan, np.where(use_b, bearing, wear_h)), names.tolist()
+
+
+def _due_dates(as_of: date, remaining_h: np.ndarray, util: np.ndarray) -> list:
+    """:func:`monitor.lifecycle.due_date` of every row: ``as_of + floor(remaining /
+    utilisation)`` days, None without an estimate, utilisation or a finite date."""
+    if isinstance(as_of, datetime) or not isinstance(as_of, date):
+        raise ValueError(f"as_of must be a datetime.date (a day), got {as_of!r}")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ok = ~np.isnan(remaining_h) & (util > 0)
+        days = np.maximum(remaining_h, 0.0) / np.where(ok, util, 1.0)
+        ok &= np.isfinite(days) & (days < (date.max - as_of).days)
+    out: list = [None] * remaining_h.size
+    start = as_of.toordinal()
+    for i, d in zip(np.flatnonzero(ok).tolist(), np.floor(days[ok]).tolist(), strict=True):
+        out[i] = date.fromordinal(start + int(d))
     return out
-
-
-def _limiting(bearing: pd.Series, wear_h: pd.Series) -> tuple[list[float], list]:
-    pairs = [lifecycle.limiting_mode(b, w) for b, w in zip(bearing, wear_h, strict=True)]
-    return [p[0] for p in pairs], [p[1] for p in pairs]
 
 
 def _objects(values: list) -> pd.Series:
@@ -568,28 +660,37 @@ def fleet_status(
         return pd.DataFrame(columns=list(STATUS_COLUMNS))
     inputs = inputs.reset_index(drop=True)
     df = pd.concat([bearing_frame(inputs, params), wear_frame(inputs, readings, params)], axis=1)
-    t = as_of_instant(as_of)
     last = pd.to_datetime(inputs["now_period_end"], utc=True)
     stamps = last.array.to_pydatetime().astype(object)
     stamps[last.isna().to_numpy()] = None
-    df["last_upload_at"] = _objects(list(stamps))
-    df["data_age_days"] = (pd.Timestamp(t) - last).dt.total_seconds().to_numpy() / 86400.0
-    df["has_cutoff"] = inputs["m_cutoff_bar"].notna().to_numpy()
-    df["flags"] = _objects(_flags(df, params))
-    rem, lim = _limiting(df["remaining_bearing_h"], df["remaining_wear_h"])
-    df["remaining_h"], df["limiting"] = np.asarray(rem, float), _objects(lim)
-    df["status"] = lifecycle.status_band(df["remaining_h"].to_numpy(float), **params.status_limits)
-    df["due_date"] = _objects(
-        [
-            lifecycle.due_date(as_of, r, u)
-            for r, u in zip(df["remaining_h"], df["utilisation_h_per_day"], strict=True)
-        ]
+    extra = {
+        "last_upload_at": _objects(list(stamps)),
+        "data_age_days": (pd.Timestamp(as_of_instant(as_of)) - last).dt.total_seconds().to_numpy()
+        / 86400.0,
+        "has_cutoff": inputs["m_cutoff_bar"].notna().to_numpy(),
+    }
+    df = pd.concat([df, pd.DataFrame(extra)], axis=1)
+    rem, lim = _limiting(
+        df["remaining_bearing_h"].to_numpy(float), df["remaining_wear_h"].to_numpy(float)
     )
-    df["hour_meter"] = inputs["now_hour_meter_end"].to_numpy(float)
-    for col in ("unit", "site", "position", "machine_type", "component_id"):
-        df[col] = inputs[col].to_numpy()
-    df["component_model"] = inputs["m_name"].to_numpy()
+    util = df["utilisation_h_per_day"].to_numpy(float)
+    extra = {
+        "flags": _objects(_flags(df, params)),
+        "remaining_h": rem,
+        "limiting": _objects(lim),
+        "status": lifecycle.status_band(rem, **params.status_limits),
+        "due_date": _objects(_due_dates(as_of, rem, util)),
+        "hour_meter": inputs["now_hour_meter_end"].to_numpy(float),
+        **{c: inputs[c].to_numpy() for c in ("unit", "site", "position", "machine_type")},
+        "component_id": inputs["component_id"].to_numpy(),
+        "component_model": inputs["m_name"].to_numpy(),
+    }
+    df = pd.concat([df, pd.DataFrame(extra)], axis=1)
     return sort_status(df[list(STATUS_COLUMNS)])
+
+
+_NO_DUE = date.max.toordinal() + 1
+"""Sort key of a missing due date: after every calendar day."""
 
 
 def sort_status(df: pd.DataFrame) -> pd.DataFrame:
@@ -599,7 +700,7 @@ def sort_status(df: pd.DataFrame) -> pd.DataFrame:
         {
             "n": df["remaining_h"].isna(),
             "r": df["remaining_h"].fillna(np.inf),
-            "d": [pd.Timestamp(d) if d is not None else pd.Timestamp.max for d in df["due_date"]],
+            "d": [d.toordinal() if d is not None else _NO_DUE for d in df["due_date"]],
             "u": df["unit"],
             "p": df["position"],
         }
@@ -632,7 +733,20 @@ def _plain_column(col: pd.Series) -> list:
         return [v if math.isfinite(v) else None for v in col.to_numpy(float).tolist()]
     if pd.api.types.is_bool_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
         return col.to_numpy().tolist()
-    return [v if type(v) is str else _plain(v) for v in col.tolist()]
+    return [_plain_object(v) for v in col.tolist()]
+
+
+def _plain_object(v: object) -> object:
+    """:func:`_plain` with the status frame's object values (text, None, days, UTC
+    times, flag lists) looked up by exact type first."""
+    t = type(v)
+    if t is str or v is None:
+        return v
+    if t is date or t is datetime:  # a plain datetime is never NaT: same text as Timestamp's
+        return v.isoformat()
+    if t is list:
+        return [str(x) for x in v]
+    return _plain(v)
 
 
 def rank_records(df: pd.DataFrame) -> list[dict]:

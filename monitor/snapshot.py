@@ -20,7 +20,11 @@ Conventions
 
 from __future__ import annotations
 
+import gc
+from collections.abc import Iterator
+from contextlib import contextmanager
 from datetime import UTC, datetime, timedelta
+from itertools import chain
 
 import numpy as np
 import pandas as pd
@@ -175,18 +179,24 @@ def ledger_points(
     ]
     outer_cols += [win.c[t].label(f"win_{t}") for t in TOTALS]
     q = select(*outer_cols).select_from(inner.outerjoin(win, win.c.id == inner.c.win_id))
-    df = pd.DataFrame(conn.execute(q).all(), columns=[c.name for c in q.selected_columns])
-    return _typed(df)
+    with _gc_paused():
+        return _typed(_plain_rows(conn, q), [c.name for c in q.selected_columns])
 
 
-def _typed(df: pd.DataFrame) -> pd.DataFrame:
-    for col in df.columns:
-        if col == "rebuilt_at" or col.endswith("_period_end"):
-            df[col] = pd.to_datetime(df[col], utc=True)
-        elif col != "component_id":
-            df[col] = pd.to_numeric(df[col]).astype(float)
-    df["component_id"] = df["component_id"].astype("int64")
-    return df.sort_values("component_id", ignore_index=True)
+def _typed(rows: list[tuple], names: list[str]) -> pd.DataFrame:
+    """Frame of the driver's rows: times parsed once per column (SQLite gives ISO text,
+    PostgreSQL datetimes) to UTC, the other columns float, ``component_id`` int64."""
+    cols = list(zip(*rows, strict=True)) if rows else [()] * len(names)
+    out = {}
+    for name, col in zip(names, cols, strict=True):
+        if name == "rebuilt_at" or name.endswith("_period_end"):
+            values = pd.Series(col, dtype=object)
+            out[name] = pd.to_datetime(values, utc=True, format="ISO8601")
+        elif name == "component_id":
+            out[name] = np.array(col, dtype=np.int64)
+        else:
+            out[name] = np.array(col, dtype=float)
+    return pd.DataFrame(out).sort_values("component_id", ignore_index=True)
 
 
 def status_inputs(
@@ -290,10 +300,39 @@ def readings_in_life(
         "test_pressure_bar",
         "oil_temp_c",
     ]
-    values = np.array(_plain_rows(conn, q), dtype=float).reshape(-1, len(cols))
+    with _gc_paused():
+        values = _float_matrix(_plain_rows(conn, q), len(cols))
     df = pd.DataFrame(values[:, 1:], columns=cols[1:])
     df.insert(0, "component_id", values[:, 0].astype(np.int64))
     return df
+
+
+def _float_matrix(rows: list[tuple], width: int) -> np.ndarray:
+    """(len(rows), width) float array of rows of numbers; NULL -> nan.
+
+    ``np.fromiter`` over the flattened values is about twice as fast as ``np.array`` of
+    the tuples, but takes no None; a row with a NULL sends the read the ``np.array`` way.
+    """
+    try:
+        flat = np.fromiter(chain.from_iterable(rows), dtype=float, count=len(rows) * width)
+    except TypeError:
+        return np.array(rows, dtype=float).reshape(-1, width)
+    return flat.reshape(-1, width)
+
+
+@contextmanager
+def _gc_paused() -> Iterator[None]:
+    """The cyclic garbage collector off while a large read builds its row tuples: they
+    hold no cycles and are freed by reference counting, but their number would start
+    full collections that walk every live object (about 0.1 s in every other rank of
+    the 2 000-unit benchmark store)."""
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
 
 
 def _plain_rows(conn: Connection, q) -> list[tuple]:  # noqa: ANN001 - a select

@@ -126,6 +126,9 @@ service_event = Table(
     Column("new_hour_meter", Float),
     Column("note", Text),
     UniqueConstraint("unit_id", "component_id", "kind", "at", name="uq_service_event_key"),
+    # The status read's "last rebuild at or before" per component: one seek each
+    # (the unique key leads with unit_id, so without this it scans every event).
+    Index("ix_service_event_component_kind_at", "component_id", "kind", "at"),
 )
 
 upload_file = Table(
@@ -185,6 +188,17 @@ reading = Table(
     Column("oil_temp_c", Float),
     Column("iso4406", String(16)),
     UniqueConstraint("component_id", "taken_at", name="uq_reading_component_taken"),
+    # Covering index of the status read: a rank scans it in (component, time) order and
+    # never visits the table.
+    Index(
+        "ix_reading_component_wear",
+        "component_id",
+        "taken_at",
+        "hour_meter",
+        "case_drain_lpm",
+        "test_pressure_bar",
+        "oil_temp_c",
+    ),
 )
 
 # One row per upload and component: what the life models made of its histogram(s).
@@ -211,8 +225,10 @@ ledger = Table(
     Column("cum_cutoff_hours", Float, nullable=False, default=0.0),
     Column("cum_relief_heat_kwh", Float, nullable=False, default=0.0),
     UniqueConstraint("upload_id", "component_id", name="uq_ledger_upload_component"),
-    Index("ix_ledger_component_period", "component_id", "period_end"),
-    Index("ix_ledger_component_cum_hours", "component_id", "cum_hours"),
+    # The trailing columns are the status read's tie-breaks (latest row at or before a
+    # bound), so its ORDER BY ... LIMIT 1 is one index seek without a sort.
+    Index("ix_ledger_component_period", "component_id", "period_end", "upload_id"),
+    Index("ix_ledger_component_cum_hours", "component_id", "cum_hours", "period_end", "upload_id"),
 )
 
 setting = Table(

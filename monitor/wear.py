@@ -227,6 +227,37 @@ def remaining_wear_h(limit: float, level: float, slope: float, low: float, high:
     return (gap / slope, r_low, r_high)
 
 
+def remaining_wear_h_batch(
+    limit: np.ndarray, level: np.ndarray, slope: np.ndarray, low: np.ndarray, high: np.ndarray
+) -> np.ndarray:
+    """:func:`remaining_wear_h` of many fits at once, with the same results.
+
+    Parameters are arrays of the limit and level [L/min] and of the slope and its low
+    and high bound [L/min per h]. Returns an (m, 3) array of remaining, remaining_low and
+    remaining_high [h] (0 at or past the limit, nan without growth, inf for the high end
+    when the low slope bound is not positive).
+    """
+    limit, level, slope, low, high = (
+        np.asarray(v, dtype=float) for v in (limit, level, slope, low, high)
+    )
+    gap = limit - level
+    with np.errstate(divide="ignore", invalid="ignore"):
+        grown = np.column_stack(
+            [
+                gap / slope,
+                np.where(high > 0, gap / high, np.nan),
+                np.where(low > 0, gap / low, np.where(np.isnan(low), np.nan, np.inf)),
+            ]
+        )
+        known = ~(np.isnan(slope) | np.isnan(level))
+        past = known & (level >= limit)
+        grow = known & ~past & (slope > 0)
+    out = np.full((gap.size, 3), np.nan)
+    out[past] = 0.0
+    out[grow] = grown[grow]
+    return out
+
+
 def case_drain_trend(
     hour_meter_h: np.ndarray,
     normalised_lpm: np.ndarray,
@@ -297,25 +328,63 @@ def _tie_terms(v: np.ndarray) -> np.ndarray:
     s = np.sort(v, axis=1)
     new = np.ones((k, n), bool)
     new[:, 1:] = s[:, 1:] != s[:, :-1]
+    if new.all():  # no ties: every group has t = 1, which adds 0
+        return np.zeros(k, np.int64)
     run = np.cumsum(new, axis=1) - 1 + (np.arange(k) * n)[:, None]
     t = np.bincount(run.ravel(), minlength=k * n).reshape(k, n).astype(np.int64)
     return (t * (t - 1) * (2 * t + 5)).sum(axis=1)
 
 
-def _theil_sen_rows(x: np.ndarray, y: np.ndarray, z: float) -> np.ndarray:
-    """(k, 4) slope, intercept, low, high of k series of equal length n (rows of x, y)."""
+PAIR_ROWS = 256
+"""Series per block of :func:`_pair_slopes` (a block's differences stay in the CPU cache)."""
+
+
+def _pair_slopes(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Pairwise slopes of k series of equal length n (rows of x, y), unsorted.
+
+    Every pair i < j once, in blocks by j (block j holds the pairs (0..j-1, j)), so the
+    pairs of the first n - 1 points are the leading (n - 1)(n - 2) / 2 columns. A pair
+    with equal x gives ``inf`` and is not counted. The differences are taken on the
+    transposed series, a block of :data:`PAIR_ROWS` series at a time, so that every
+    subtraction runs over contiguous memory.
+
+    Returns the (k, n(n-1)/2) slopes and, per series, the number of counted pairs of all
+    points and of the first n - 1 points.
+    """
     k, n = x.shape
-    # every pair i < j once, as j = i + d for d = 1 .. n-1 (contiguous slices)
-    dx = np.concatenate([x[:, :-d] - x[:, d:] for d in range(1, n)], axis=1)
-    dy = np.concatenate([y[:, :-d] - y[:, d:] for d in range(1, n)], axis=1)
-    ok = dx != 0
-    if ok.all():
-        slopes = dy / dx
-    else:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            slopes = np.where(ok, dy / np.where(ok, dx, 1.0), np.inf)
-    slopes.sort(axis=1)
-    count = ok.sum(axis=1)
+    pairs, head = n * (n - 1) // 2, (n - 1) * (n - 2) // 2
+    slopes = np.empty((k, pairs))
+    count, count_head = np.empty(k, np.int64), np.empty(k, np.int64)
+    for s in range(0, k, PAIR_ROWS):
+        xt, yt = (
+            np.ascontiguousarray(x[s : s + PAIR_ROWS].T),
+            np.ascontiguousarray(y[s : s + PAIR_ROWS].T),
+        )
+        dx, dy = np.empty((pairs, xt.shape[1])), np.empty((pairs, xt.shape[1]))
+        off = 0
+        for j in range(1, n):
+            np.subtract(xt[:j], xt[j], out=dx[off : off + j])
+            np.subtract(yt[:j], yt[j], out=dy[off : off + j])
+            off += j
+        ok = dx != 0
+        if ok.all():
+            q = np.divide(dy, dx, out=dy)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                q = np.where(ok, dy / np.where(ok, dx, 1.0), np.inf)
+        slopes[s : s + xt.shape[1]] = q.T
+        count[s : s + xt.shape[1]] = ok.sum(axis=0)
+        count_head[s : s + xt.shape[1]] = ok[:head].sum(axis=0)
+    return slopes, count, count_head
+
+
+def _fit_rows(
+    slopes: np.ndarray, count: np.ndarray, x: np.ndarray, y: np.ndarray, z: float
+) -> np.ndarray:
+    """(k, 4) slope, intercept, low, high from each row's sorted pairwise slopes."""
+    k, n = x.shape
+    if slopes.shape[1] == 0:
+        return np.full((k, 4), np.nan)
     rows = np.arange(k)
     c = np.maximum(count, 1)
     mid_lo, mid_hi = slopes[rows, (c - 1) // 2], slopes[rows, c // 2]
@@ -330,6 +399,22 @@ def _theil_sen_rows(x: np.ndarray, y: np.ndarray, z: float) -> np.ndarray:
     out = np.column_stack([slope, intercept, low, high])
     out[count == 0] = np.nan
     return out
+
+
+def _theil_sen_rows(
+    x: np.ndarray, y: np.ndarray, z: float, before_last: bool = False
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """(k, 4) slope, intercept, low, high of k series of equal length n (rows of x, y),
+    and, with ``before_last``, the same of each series without its last point (taken
+    from the same pairwise slopes: the pairs that do not involve the last point)."""
+    slopes, count, count_head = _pair_slopes(x, y)
+    before = None
+    if before_last:
+        head = slopes[:, : (x.shape[1] - 1) * (x.shape[1] - 2) // 2].copy()
+        head.sort(axis=1)
+        before = _fit_rows(head, count_head, x[:, :-1], y[:, :-1], z)
+    slopes.sort(axis=1)
+    return _fit_rows(slopes, count, x, y, z), before
 
 
 def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0.95) -> np.ndarray:
@@ -360,17 +445,58 @@ def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0
     ----------
     Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6).
     """
+    return _batch(xs, ys, alpha, before_last=False)[0]
+
+
+def theil_sen_batch_and_before_last(
+    xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0.95
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`theil_sen_batch` of each series, and of each series without its last point.
+
+    Parameters
+    ----------
+    xs, ys : list of array (n_i,)
+        Independent and dependent values of each series (finite, n_i >= 2), e.g. hour
+        meter [h] and normalised case-drain flow [L/min].
+    alpha : float, default 0.95
+        Confidence level of the slope interval [-], in (0, 1).
+
+    Returns
+    -------
+    tuple of numpy.ndarray (m, 4)
+        Per series, slope, intercept, slope_low, slope_high [y-unit per x-unit, y-unit,
+        ...] of all points, then of the points before the last; a row of nan where all
+        x of the points taken are equal or fewer than two points are left.
+
+    Notes
+    -----
+    The pairwise slopes of the points before the last are the pairwise slopes of all
+    points less those that involve the last point, so both fits share one set of
+    differences; each is then :func:`theil_sen` element by element (same results as
+    two calls of :func:`theil_sen_batch`).
+
+    References
+    ----------
+    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6).
+    """
+    return _batch(xs, ys, alpha, before_last=True)
+
+
+def _batch(
+    xs: list[np.ndarray], ys: list[np.ndarray], alpha: float, *, before_last: bool
+) -> tuple[np.ndarray, np.ndarray]:
     if len(xs) != len(ys):
         raise ValueError("xs and ys must hold the same number of series")
     if not (0 < alpha < 1):
         raise ValueError(f"alpha must be a confidence level in (0, 1), got {alpha!r}")
-    out = np.full((len(xs), 4), np.nan)
+    out, prev = np.full((len(xs), 4), np.nan), np.full((len(xs), 4), np.nan)
     if not xs:
-        return out
+        return out, prev
     z = float(norm.ppf((1.0 - max(alpha, 1.0 - alpha)) / 2.0))
-    sizes = np.array([np.size(x) for x in xs])
-    if np.any(sizes < 2) or any(np.shape(x) != np.shape(y) for x, y in zip(xs, ys, strict=True)):
+    shapes = [_shape(x) for x in xs]
+    if shapes != [_shape(y) for y in ys] or any(len(sh) != 1 or sh[0] < 2 for sh in shapes):
         raise ValueError("every series needs x and y of equal length >= 2")
+    sizes = np.array([sh[0] for sh in shapes], dtype=np.int64)
     for n in np.unique(sizes):
         idx = np.flatnonzero(sizes == n)
         step = max(1, PAIR_BLOCK // max(1, n * (n - 1) // 2))
@@ -380,5 +506,11 @@ def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0
             y = np.array([ys[i] for i in part], dtype=float)
             if not (np.isfinite(x).all() and np.isfinite(y).all()):
                 raise ValueError("x and y must be finite (drop missing readings first)")
-            out[part] = _theil_sen_rows(x, y, z)
-    return out
+            out[part], before = _theil_sen_rows(x, y, z, before_last)
+            if before is not None:
+                prev[part] = before
+    return out, prev
+
+
+def _shape(v: object) -> tuple:
+    return v.shape if isinstance(v, np.ndarray) else np.shape(v)

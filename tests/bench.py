@@ -14,8 +14,9 @@ Stages, each in its own subprocess so its peak memory (max RSS) is its own:
   monthly case-drain reading per loop.
 - ``recompute``: :func:`monitor.service.recompute` over that store.
 - ``rank``: :func:`monitor.service.fleet_status` + records over that store (best of
-  ``--repeat``), with the best-of-3 split into the ledger read, the readings read, the
-  pure status and the records.
+  ``--repeat``), with the best-of-3 split into the ledger read (and the registry join
+  within it), the readings read, the pure status and the records; then once more with
+  a rebuild and an inspection of every component added in a rolled-back transaction.
 - ``dashboard``: the fleet page's render, if the dashboard offers
   ``dashboards.bench_hook.render_fleet_page(engine)``; skipped otherwise.
 
@@ -319,6 +320,7 @@ def stage_rank(args: argparse.Namespace) -> dict:
         recs = service.rank_records(df)
         times.append(time.perf_counter() - t)
     split = _rank_split(engine, _as_of(args))
+    events = _rank_with_rebuilds(engine, _as_of(args))
     engine.dispose()
     with_wear = int(df["remaining_wear_h"].notna().sum())
     return {
@@ -327,19 +329,32 @@ def stage_rank(args: argparse.Namespace) -> dict:
         "rank_s": min(times),
         "rank_s_all": times,
         "split_s": split,
+        "with_rebuild_events": events,
         "peak_mb": _peak_mb(),
     }
 
 
 def _rank_split(engine, as_of: date) -> dict:  # noqa: ANN001
-    """Best-of-3 time of each part of a rank: the two store reads and the pure status."""
-    from monitor import fleet, service, snapshot
+    """Best-of-3 time of each part of a rank: the two store reads and the pure status.
+
+    ``ledger_points`` is the whole ledger read (``snapshot.status_inputs``), of which
+    ``components`` (the registry join, ``queries.components_frame``) is timed apart."""
+    from monitor import fleet, queries, service, snapshot
 
     params = service._params_for(engine, None, None)
     t0 = fleet.as_of_instant(as_of)
-    best = {"ledger_points": np.inf, "readings": np.inf, "status": np.inf, "records": np.inf}
+    best = {
+        "ledger_points": np.inf,
+        "components": np.inf,
+        "readings": np.inf,
+        "status": np.inf,
+        "records": np.inf,
+    }
     for _ in range(3):
         with engine.connect() as conn:
+            t = time.perf_counter()
+            queries.components_frame(conn)
+            best["components"] = min(best["components"], time.perf_counter() - t)
             t = time.perf_counter()
             inputs = snapshot.status_inputs(
                 conn,
@@ -358,6 +373,52 @@ def _rank_split(engine, as_of: date) -> dict:  # noqa: ANN001
         fleet.rank_records(df)
         best["records"] = min(best["records"], time.perf_counter() - t)
     return best
+
+
+def _rank_with_rebuilds(engine, as_of: date) -> dict:  # noqa: ANN001
+    """A rank over the store with a rebuild and an inspection of every component added
+    (200 and 100 days before ``as_of``) inside a transaction that is rolled back: the
+    store itself has no service events. Best of 3 of the two reads and the status."""
+    from sqlalchemy import text
+
+    from monitor import fleet, service, snapshot
+
+    params = service._params_for(engine, None, None)
+    t0 = fleet.as_of_instant(as_of)
+    best, n_events, df = np.inf, 0, None
+    with engine.connect() as conn:
+        comps = conn.execute(text("SELECT id, unit_id FROM component")).all()
+        rows = [
+            {"u": u, "c": c, "k": kind, "at": _ts(t0 - timedelta(days=days)), "h": 0.0}
+            for c, u in comps
+            for kind, days in (("rebuild", 200), ("inspection", 100))
+        ]
+        conn.execute(
+            text(
+                "INSERT INTO service_event (unit_id, component_id, kind, at, hour_meter) "
+                "VALUES (:u, :c, :k, :at, :h)"
+            ),
+            rows,
+        )
+        n_events = len(rows)
+        for _ in range(3):
+            t = time.perf_counter()
+            inputs = snapshot.status_inputs(
+                conn,
+                t0,
+                rate_window_h=params.rate_window_h,
+                utilisation_days=params.utilisation_days,
+            )
+            readings = snapshot.readings_in_life(conn, t0)
+            df = fleet.fleet_status(inputs, readings, as_of, params)
+            fleet.rank_records(df)
+            best = min(best, time.perf_counter() - t)
+        conn.rollback()
+    return {
+        "service_events": n_events,
+        "rank_s": best,
+        "with_wear_estimate": int(df["remaining_wear_h"].notna().sum()),
+    }
 
 
 def stage_dashboard(args: argparse.Namespace) -> dict:

@@ -282,3 +282,28 @@ def test_ties_broken_by_unit_then_position():
 def test_empty_inputs_give_empty_frame_with_columns():
     s = fleet.fleet_status(inputs(healthy()).iloc[0:0], no_readings(), AS_OF, fleet.StatusParams())
     assert s.empty and list(s.columns) == list(fleet.STATUS_COLUMNS)
+
+
+def test_limiting_and_due_dates_of_all_rows_equal_the_scalar_definitions():
+    # Oracle: lifecycle.limiting_mode and lifecycle.due_date row by row, over ties,
+    # missing estimates, zero / missing utilisation, negative, infinite and huge hours.
+    nan, inf = math.nan, math.inf
+    bearing = np.array([100.0, 300.0, nan, nan, 50.0, 50.0, inf, 0.0, -5.0, 1e12, 7.9, inf])
+    wear_h = np.array([200.0, 300.0, 80.0, nan, nan, 40.0, inf, 10.0, nan, nan, nan, 5.0])
+    util = np.array([10.0, 7.0, 3.0, 5.0, 0.0, nan, 5.0, 2.0, 4.0, 1e-9, 8.0, -1.0])
+    rem, names = fleet._limiting(bearing, wear_h)
+    pairs = [lifecycle.limiting_mode(b, w) for b, w in zip(bearing, wear_h, strict=True)]
+    np.testing.assert_array_equal(rem, [p[0] for p in pairs])
+    assert names == [p[1] for p in pairs]
+    got = fleet._due_dates(AS_OF, rem, util)
+    assert got == [lifecycle.due_date(AS_OF, r, u) for r, u in zip(rem, util, strict=True)]
+    assert got[0] == AS_OF + timedelta(days=10) and got[3] is None and got[9] is None
+    with pytest.raises(ValueError, match="a day"):
+        fleet._due_dates(T, rem, util)
+
+
+def test_flag_lists_are_separate_per_row():
+    s = status(healthy(1), healthy(2))  # no readings: both few_wear_readings
+    assert s["flags"].tolist() == [[fleet.FLAG_FEW], [fleet.FLAG_FEW]]
+    s["flags"].iloc[0].append("x")  # one row's list is its own
+    assert s["flags"].iloc[1] == [fleet.FLAG_FEW]

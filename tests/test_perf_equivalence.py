@@ -307,3 +307,38 @@ def test_ingest_stores_what_the_records_say(sqlite_url):
     uploads = {(r["upload_id"], r["unit_id"]) for r in rows}
     assert len(uploads) == len({r["upload_id"] for r in rows})
     engine.dispose()
+
+
+def test_readings_matrix_with_and_without_nulls():
+    # The fast path (no NULL) and the fallback (a NULL test condition) give np.array's floats.
+    rows = [(1, 10.0, 1.5, 250.0, 50.0), (2, 11.0, 1.25, 240.0, 45.5)]
+    np.testing.assert_array_equal(snapshot._float_matrix(rows, 5), np.array(rows, dtype=float))
+    rows.append((3, 12.0, 1.75, None, None))
+    got = snapshot._float_matrix(rows, 5)
+    np.testing.assert_array_equal(got[:, :3], np.array([r[:3] for r in rows], dtype=float))
+    assert np.isnan(got[2, 3:]).all() and snapshot._float_matrix([], 5).shape == (0, 5)
+
+
+def test_status_reads_are_index_seeks_without_sorts(sqlite_url):
+    # SQLite's plan of each status read: ledger points and last rebuilds by index seeks
+    # (no temporary sort per component, no scan of the events), readings from the
+    # covering index alone.
+    from sqlalchemy import event
+
+    engine = service.init_db(sqlite_url)
+    seen: list[tuple] = []
+    event.listen(engine, "before_cursor_execute", lambda *a: seen.append((a[2], a[3])))
+    t = fleet.as_of_instant(date(2026, 6, 1))
+    with engine.connect() as conn:
+        snapshot.ledger_points(conn, t, rate_window_h=500.0)
+        snapshot.readings_in_life(conn, t)
+        plans = [
+            [r[3] for r in conn.exec_driver_sql("EXPLAIN QUERY PLAN " + sql, params).all()]
+            for sql, params in list(seen)
+        ]
+    engine.dispose()
+    points, reads = plans
+    assert not any("TEMP B-TREE" in p for p in points), points
+    assert not any(p.startswith("SCAN") for p in points if "component" not in p), points
+    assert any("ix_service_event_component_kind_at" in p for p in points), points
+    assert any("COVERING INDEX ix_reading_component_wear" in p for p in reads), reads

@@ -180,3 +180,60 @@ def test_theil_sen_batch_small_blocks_and_errors(monkeypatch):
         wear.theil_sen_batch([np.array([0.0])], [np.array([1.0])])
     with pytest.raises(ValueError, match="alpha"):
         wear.theil_sen_batch(xs, ys, alpha=1.5)
+
+
+@pytest.mark.parametrize("rows", [256, 3])
+def test_fit_before_last_equals_one_at_a_time(monkeypatch, rows):
+    # Oracle: wear.theil_sen of each series without its last point, exactly; the fits of
+    # whole series stay those of theil_sen_batch. Blocks of 3 series leave a remainder.
+    monkeypatch.setattr(wear, "PAIR_ROWS", rows)
+    xs, ys = _series(13, 300)
+    whole, before = wear.theil_sen_batch_and_before_last(xs, ys)
+    np.testing.assert_array_equal(whole, wear.theil_sen_batch(xs, ys))
+    checked = 0
+    for i, (x, y) in enumerate(zip(xs, ys, strict=True)):
+        if x.size < 3 or np.unique(x[:-1]).size < 2:
+            assert np.isnan(before[i]).all()
+            continue
+        np.testing.assert_array_equal(before[i], wear.theil_sen(x[:-1], y[:-1]))
+        checked += 1
+    assert checked > 200
+    monkeypatch.setattr(wear, "PAIR_BLOCK", 1)  # one series per block
+    again = wear.theil_sen_batch_and_before_last(xs, ys)
+    np.testing.assert_array_equal(again[0], whole)
+    np.testing.assert_array_equal(again[1], before)
+
+
+def test_fit_before_last_errors():
+    assert [a.shape for a in wear.theil_sen_batch_and_before_last([], [])] == [(0, 4), (0, 4)]
+    with pytest.raises(ValueError, match="equal length >= 2"):
+        wear.theil_sen_batch_and_before_last([np.zeros((2, 3))], [np.zeros((2, 3))])
+    with pytest.raises(ValueError, match="equal length >= 2"):
+        wear.theil_sen_batch_and_before_last([np.arange(3.0)], [np.arange(4.0)])
+    with pytest.raises(ValueError, match="same number"):
+        wear.theil_sen_batch_and_before_last([np.arange(3.0)], [])
+
+
+def test_remaining_wear_batch_equals_scalar():
+    # Oracle: wear.remaining_wear_h case by case (limit 3 L/min): growing, past the limit,
+    # at it, flat, falling, no slope, no level, low bound <= 0 or unknown, high bound <= 0.
+    nan, inf = math.nan, math.inf
+    cases = [
+        (2.0, 0.001, 0.0005, 0.002),
+        (3.5, 0.001, 0.0005, 0.002),
+        (3.0, 0.001, 0.0005, 0.002),
+        (2.0, 0.0, -0.001, 0.001),
+        (2.0, -0.001, -0.002, 0.0),
+        (2.0, nan, nan, nan),
+        (nan, 0.001, 0.0005, 0.002),
+        (2.0, 0.001, -0.0005, 0.002),
+        (2.0, 0.001, 0.0, 0.002),
+        (2.0, 0.001, nan, nan),
+        (2.0, 0.001, 0.0005, 0.0),
+        (2.0, 1e-300, 1e-300, inf),
+    ]
+    level, slope, low, high = (np.array(c) for c in zip(*cases, strict=True))
+    got = wear.remaining_wear_h_batch(np.full(level.size, 3.0), level, slope, low, high)
+    want = np.array([wear.remaining_wear_h(3.0, *c) for c in cases])
+    np.testing.assert_array_equal(got, want)
+    assert wear.remaining_wear_h_batch(*(np.zeros(0),) * 5).shape == (0, 3)
