@@ -192,7 +192,8 @@ def components_frame(conn: Connection) -> pd.DataFrame:
         .join(o, u.c.oil_id == o.c.id)
         .order_by(u.c.tag, c.c.position)
     )
-    return pd.DataFrame(conn.execute(q).mappings().all(), columns=list(q.selected_columns.keys()))
+    res = conn.execute(q)
+    return pd.DataFrame(res.fetchall(), columns=list(res.keys()))
 
 
 def model_spec(row: dict | pd.Series) -> ComponentModelSpec:
