@@ -21,6 +21,7 @@ PURE = [
     "hydraulics",
     "lifecycle",
     "fleet",
+    "fleet_wear",
     "planning",
     "planning_types",
     "planning_report",
@@ -36,6 +37,7 @@ INGEST = {
 NO_SQL = {
     **INGEST,
     "cli": {"sqlalchemy"},
+    "cli_plan_demo": {"sqlalchemy"},
     "registry": {"sqlalchemy", "streamlit", "click"},
     "units": {"sqlalchemy", "streamlit", "click"},
     "service": {"streamlit", "click"},
