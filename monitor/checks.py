@@ -91,31 +91,33 @@ def batch_shas(b: HistogramBatch) -> list[str]:
 
     The bands and hours of all histograms are laid out once in the order the digest
     reads them (pressure low, pressure high, speed low, speed high, hours; each
-    histogram's run after the one before), rounded in one pass; each digest then
-    reads its header and a slice of those bytes.
+    histogram's run after the one before) and rounded in one pass. The text header is
+    written once per distinct quantity, period and hour meters (both loops of an
+    upload share it); each digest then reads its header and a slice of those bytes.
     """
     if len(b) == 0:
         return []
     body, bounds = b.runs(DIGEST_ORDER)
     data = np.round(body, 9).tobytes()
     cut = (8 * bounds).tolist()
-    iso = _iso_stamps(np.concatenate([b.period_start_ns, b.period_end_ns]))
-    n = len(b)
-    sha = hashlib.sha256
-    rows = zip(
-        b.quantity.tolist(),
-        iso[:n],
-        iso[n:],
-        b.hour_meter_start.tolist(),
-        b.hour_meter_end.tolist(),
-        cut[:-1],
-        cut[1:],
+    meters = (b.hour_meter_start.view(np.int64), b.hour_meter_end.view(np.int64))  # -0.0 != 0.0
+    keys = (b.quantity, b.period_start_ns, b.period_end_ns, *meters)
+    head_of = group_ids([pd.factorize(k)[0] for k in keys])
+    first = np.unique(head_of, return_index=True)[1]
+    iso = _iso_stamps(np.concatenate([b.period_start_ns[first], b.period_end_ns[first]]))
+    fields = zip(
+        b.quantity[first].tolist(),
+        iso[: first.size],
+        iso[first.size :],
+        b.hour_meter_start[first].tolist(),
+        b.hour_meter_end[first].tolist(),
         strict=True,
     )
-    return [
-        sha(f"{q}|{t0}|{t1}|{m0:.6f}|{m1:.6f}|".encode() + data[a:z]).hexdigest()
-        for q, t0, t1, m0, m1, a, z in rows
-    ]
+    heads = np.empty(first.size, dtype=object)
+    heads[:] = [f"{q}|{t0}|{t1}|{m0:.6f}|{m1:.6f}|".encode() for q, t0, t1, m0, m1 in fields]
+    sha = hashlib.sha256
+    rows = zip(heads[head_of].tolist(), cut[:-1], cut[1:], strict=True)
+    return [sha(head + data[a:z]).hexdigest() for head, a, z in rows]
 
 
 def _iso_stamps(ns: np.ndarray) -> list[str]:
@@ -360,66 +362,142 @@ def _number_uploads(plan: UploadPlan) -> None:
 
 
 def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
-    """Hour meters of a unit must not run backwards unless a meter change is recorded."""
+    """Hour meters of a unit must not run backwards unless a meter change is recorded.
+
+    The new uploads and the stored ones near them are sorted per unit by period; an
+    upload whose meter starts below where the one before it ended is flagged when
+    either of the two is new.
+    """
     if not plan.n_histograms:
         return
     b, f = plan.batch, plan.upload_first
     lines = _lines(b)
-    new = pd.DataFrame(
-        {
-            "unit_id": plan.unit_id[f],
-            "start": _utc(b.period_start_ns[f]),
-            "end": _utc(b.period_end_ns[f]),
-            "hm_start": b.hour_meter_start[f],
-            "hm_end": b.hour_meter_end[f],
-            "line": [lines[i] for i in f.tolist()],
-            "new": True,
-        }
-    )
-    stored = _stored_uploads(conn, new)
-    changes = _meter_changes(conn, new["unit_id"].unique())
-    df = pd.concat([stored, new], ignore_index=True).sort_values(["unit_id", "start", "end"])
-    prev = df.groupby("unit_id")[["hm_end", "end", "new"]].shift(1)
-    back = df[
-        (df["hm_start"] < prev["hm_end"] - HOUR_METER_TOLERANCE_H)
-        & (df["new"] | prev["new"].fillna(False).astype(bool))
-    ]
-    for idx, row in back.iterrows():
-        if _change_between(changes, row.unit_id, prev.loc[idx, "end"], row.start):
+    unit = plan.unit_id[f]
+    stored = _stored_uploads(conn, unit, b.period_start_ns[f], b.period_end_ns[f])
+    rows = {
+        "unit": np.r_[stored["unit"], unit],
+        "start": np.r_[stored["start"], b.period_start_ns[f]],
+        "end": np.r_[stored["end"], b.period_end_ns[f]],
+        "hm_start": np.r_[stored["hm_start"], b.hour_meter_start[f]],
+        "hm_end": np.r_[stored["hm_end"], b.hour_meter_end[f]],
+        "new": np.r_[np.zeros(stored["unit"].size, bool), np.ones(f.size, bool)],
+    }
+    o = np.lexsort((rows["end"], rows["start"], rows["unit"]))  # stable: stored first
+    r = {k: v[o] for k, v in rows.items()}
+    same = r["unit"][1:] == r["unit"][:-1]
+    with np.errstate(invalid="ignore"):
+        back = same & (r["hm_start"][1:] < r["hm_end"][:-1] - HOUR_METER_TOLERANCE_H)
+    back &= r["new"][1:] | r["new"][:-1]
+    if not back.any():
+        return
+    changes = _meter_changes(conn, np.unique(unit))
+    n_stored = stored["unit"].size
+    for j in (np.flatnonzero(back) + 1).tolist():
+        k, p = int(o[j]), int(o[j - 1])
+        start, prev_end = _stamp(rows["start"][k]), _stamp(rows["end"][p])
+        if _change_between(changes, int(rows["unit"][k]), prev_end, start):
             continue
+        hm_start = float(rows["hm_start"][k])
         plan.problems.append(
             Problem(
                 name,
-                None if pd.isna(row.line) else int(row.line),
+                lines[int(f[k - n_stored])] if k >= n_stored else None,
                 "hour_meter_start",
-                f"{row.hm_start:g}",
-                f"hour meter runs backwards: {prev.loc[idx, 'hm_end']:g} h at "
-                f"{prev.loc[idx, 'end'].isoformat()} then {row.hm_start:g} h at "
-                f"{row.start.isoformat()}; if the meter was changed, record an "
+                f"{hm_start:g}",
+                f"hour meter runs backwards: {float(rows['hm_end'][p]):g} h at "
+                f"{prev_end.isoformat()} then {hm_start:g} h at "
+                f"{start.isoformat()}; if the meter was changed, record an "
                 "hour_meter_change service event in the registry first",
             )
         )
 
 
-def _stored_uploads(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
+def _stamp(ns: int) -> pd.Timestamp:
+    return pd.Timestamp(int(ns), unit="ns", tz="UTC")
+
+
+def _stored_uploads(
+    conn: Connection, unit: np.ndarray, start_ns: np.ndarray, end_ns: np.ndarray
+) -> dict[str, np.ndarray]:
+    """Stored uploads of some units that start within :data:`NEIGHBOUR_WINDOW` of a
+    period [ns since the epoch] of the file and can neighbour a new upload, as arrays.
+
+    A unit's new uploads usually all come after its stored ones; then only its last
+    stored upload can be the neighbour of a new one, found with one index seek. The
+    other units' stored uploads in the window are all read.
+    """
+    lo = _stamp(start_ns.min()).to_pydatetime() - NEIGHBOUR_WINDOW
+    hi = _stamp(end_ns.max()).to_pydatetime() + NEIGHBOUR_WINDOW
+    units = np.unique(unit)
+    last = _last_uploads(conn, units, hi)
+    o = np.lexsort((end_ns, start_ns, unit))
+    head = o[np.r_[True, unit[o][1:] != unit[o][:-1]]]  # each unit's first new upload
+    period = zip(start_ns[head].tolist(), end_ns[head].tolist(), strict=True)
+    first = dict(zip(unit[head].tolist(), period, strict=True))
+    lo_ns = _ns_of([lo])[0]
+    fast, slow = [], []
+    for row in last:
+        if row[1] < lo_ns:
+            continue  # nothing stored in the window
+        (fast if first[row[0]] >= (row[1], row[2]) else slow).append(row)
+    rows = fast + (_window_uploads(conn, [r[0] for r in slow], lo, hi) if slow else [])
+    cols = list(zip(*rows, strict=True)) if rows else [[]] * 5
+    return {
+        "unit": np.array(cols[0], dtype=np.int64),
+        "start": np.array(cols[1], dtype=np.int64),
+        "end": np.array(cols[2], dtype=np.int64),
+        "hm_start": np.array(cols[3], dtype=float),
+        "hm_end": np.array(cols[4], dtype=float),
+    }
+
+
+def _last_uploads(conn: Connection, units: np.ndarray, hi) -> list[tuple]:  # noqa: ANN001
+    """Per unit, its last stored upload starting at or before ``hi`` (by start, end and
+    id), as (unit, start [ns], end [ns], hour meter start, end); one seek per unit."""
+    t, u = store.upload, store.unit
+    la = t.alias("la")
+    last = (
+        select(la.c.id)
+        .where(la.c.unit_id == u.c.id, la.c.period_start <= hi)
+        .order_by(la.c.period_start.desc(), la.c.period_end.desc(), la.c.id.desc())
+        .limit(1)
+        .correlate(u)
+        .scalar_subquery()
+    )
+    pts = select(u.c.id.label("uid"), last.label("last_id"))
+    pts = pts.where(u.c.id.in_([int(x) for x in units])).subquery()
+    q = select(
+        t.c.unit_id, t.c.period_start, t.c.period_end, t.c.hour_meter_start, t.c.hour_meter_end
+    ).join(pts, pts.c.last_id == t.c.id)
+    return _with_ns(conn.execute(q).all())
+
+
+def _window_uploads(conn: Connection, units: list[int], lo, hi) -> list[tuple]:  # noqa: ANN001
+    """Stored uploads of ``units`` starting between ``lo`` and ``hi``, as in
+    :func:`_last_uploads`."""
     t = store.upload
-    lo = new["start"].min().to_pydatetime() - NEIGHBOUR_WINDOW
-    hi = new["end"].max().to_pydatetime() + NEIGHBOUR_WINDOW
     q = select(
         t.c.unit_id, t.c.period_start, t.c.period_end, t.c.hour_meter_start, t.c.hour_meter_end
     ).where(
-        t.c.unit_id.in_([int(x) for x in new["unit_id"].unique()]),
+        t.c.unit_id.in_([int(x) for x in units]),
         t.c.period_start >= lo,
         t.c.period_start <= hi,
     )
-    df = pd.DataFrame(
-        conn.execute(q).all(), columns=["unit_id", "start", "end", "hm_start", "hm_end"]
-    )
-    df["start"] = pd.to_datetime(df["start"], utc=True)
-    df["end"] = pd.to_datetime(df["end"], utc=True)
-    df["new"] = False
-    df["line"] = np.nan
-    return df
+    return _with_ns(conn.execute(q).all())
+
+
+def _with_ns(rows: list) -> list[tuple]:
+    """Upload rows with their stored period start and end as int64 ns since the epoch."""
+    if not rows:
+        return []
+    cols = list(zip(*rows, strict=True))
+    start, end = _ns_of(cols[1]).tolist(), _ns_of(cols[2]).tolist()
+    return list(zip(cols[0], start, end, cols[3], cols[4], strict=True))
+
+
+def _ns_of(values) -> np.ndarray:  # noqa: ANN001
+    """Stored timestamps (naive ones are UTC) as int64 ns since the epoch."""
+    return pd.DatetimeIndex(pd.to_datetime(list(values), utc=True)).as_unit("ns").asi8
 
 
 def _meter_changes(conn: Connection, unit_ids) -> pd.DataFrame:  # noqa: ANN001

@@ -32,7 +32,7 @@ from monitor.ledger_batch import (
     bind_values,
     fetch_plain,
     gc_paused,
-    insert_rows,
+    insert_columns,
     update_rows,
 )
 from monitor.ledger_metrics import (  # noqa: F401 - part of this module's interface
@@ -73,17 +73,32 @@ class ComponentTable:
         return {c for c, mid in self.model_of.items() if mid in with_data}
 
 
-def component_table(conn: Connection) -> ComponentTable:
-    """The :class:`ComponentTable` of the registry as stored now."""
-    recs = queries.components_frame(conn).to_dict("records")
+def component_table(conn: Connection, ids: list[int] | None = None) -> ComponentTable:
+    """The :class:`ComponentTable` of the registry as stored now: every component, or
+    those of ``ids``."""
+    c, u, m, o = store.component, store.unit, store.component_model, store.oil
+    q = (
+        select(
+            c.c.id.label("component_id"),
+            m.c.id.label("model_id"),
+            *[col.label(f"m_{col.name}") for col in m.c if col.name != "id"],
+            *[col.label(f"oil_{col.name}") for col in o.c if col.name != "id"],
+        )
+        .join(u, c.c.unit_id == u.c.id)
+        .join(m, c.c.model_id == m.c.id)
+        .join(o, u.c.oil_id == o.c.id)
+    )
+    if ids is not None:
+        q = q.where(c.c.id.in_([int(x) for x in ids]))
+    recs = [dict(r) for r in conn.execute(q).mappings()]
     models: dict[int, ComponentModelSpec] = {}
     for r in recs:
-        if int(r["model_id"]) not in models:
-            models[int(r["model_id"])] = queries.model_spec(r)
+        if r["model_id"] not in models:
+            models[r["model_id"]] = queries.model_spec(r)
     return ComponentTable(
-        {int(r["component_id"]): int(r["model_id"]) for r in recs},
+        {r["component_id"]: r["model_id"] for r in recs},
         models,
-        {int(r["component_id"]): r for r in recs},
+        {r["component_id"]: r for r in recs},
     )
 
 
@@ -183,23 +198,22 @@ def _running_totals(comp: np.ndarray, values: dict[str, np.ndarray]) -> dict:
     return {cum: sums[col].to_numpy() for cum, col in CUM_COLUMNS.items()}
 
 
-def _ledger_tuples(
+def _ledger_columns(
     conn: Connection, batch: Batch, values: dict, order: np.ndarray, *, raw: bool
-) -> list[tuple]:
-    """Insert tuples of ledger rows in ``order`` (``raw``: period ends as stored)."""
+) -> list[list]:
+    """Columns of the ledger rows in ``order`` (``raw``: period ends as stored)."""
     if raw:
         ends = [batch.period_end[i] for i in order.tolist()]
     elif batch.period_end_ns is not None:
         ends = bind_times(conn, store.ledger, "period_end", batch.period_end_ns[order])
     else:
         ends = bind_values(conn, store.ledger, "period_end", [batch.period_end[i] for i in order])
-    cols = [
+    return [
         batch.upload_id[order].tolist(),
         batch.component_id[order].tolist(),
         ends,
         *(np.asarray(values[c])[order].tolist() for c in LEDGER_COLUMNS[3:]),
     ]
-    return list(zip(*cols, strict=True))
 
 
 # --- writing at ingest --------------------------------------------------------------
@@ -216,7 +230,7 @@ def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 
 
 
 def _write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
-    table = component_table(conn)
+    table = component_table(conn, sorted(plan.component_unit))
     upload_ids = _insert_uploads(conn, file_id, plan)
     every = batch_from_columns(
         plan.batch, np.arange(plan.n_histograms), plan.component_id, upload_ids
@@ -244,17 +258,16 @@ def _insert_uploads(conn: Connection, file_id: int, plan) -> np.ndarray:  # noqa
     if not first.size:
         return np.zeros(0, dtype=np.int64)
     t, b = store.upload, plan.batch
-    rows = zip(
+    values = [
         [file_id] * first.size,
         plan.unit_id[first].tolist(),
         bind_times(conn, t, "period_start", b.period_start_ns[first]),
         bind_times(conn, t, "period_end", b.period_end_ns[first]),
         b.hour_meter_start[first].tolist(),
         b.hour_meter_end[first].tolist(),
-        strict=True,
-    )
+    ]
     cols = ["file_id", "unit_id", "period_start", "period_end"]
-    insert_rows(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], list(rows))
+    insert_columns(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], values)
     # ids rise in insert order (SQLite rowids; one session's sequence values in PostgreSQL)
     ids = conn.execute(select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id)).scalars()
     return np.array(ids.all(), dtype=np.int64)[plan.upload]
@@ -314,7 +327,7 @@ def _insert_histograms(conn: Connection, plan, batch: Batch) -> None:  # noqa: A
         [None if x != x else x for x in b.mean_speed_rpm.tolist()],  # nan: not given
         plan.sha,
     ]
-    insert_rows(conn, t, HISTOGRAM_COLUMNS, list(zip(*cols, strict=True)))
+    insert_columns(conn, t, HISTOGRAM_COLUMNS, cols)
 
 
 PRESSURE_BANDS = ("pressure_low_bar", "pressure_high_bar")
@@ -380,8 +393,8 @@ def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable) -> Non
         b = np.array([totals[c] for totals in base.values()] + [0.0])[at]
         values[c] = np.empty(len(batch))
         values[c][order] = cum[c] + b
-    rows = _ledger_tuples(conn, batch, values, order, raw=False)
-    insert_rows(conn, store.ledger, LEDGER_COLUMNS, rows)
+    cols = _ledger_columns(conn, batch, values, order, raw=False)
+    insert_columns(conn, store.ledger, LEDGER_COLUMNS, cols)
     if behind:
         first = pd.Timestamp(int(since[list(behind)].min()), tz="UTC").to_pydatetime()
         refresh_cumulative(conn, sorted(behind), first)
@@ -529,8 +542,8 @@ def _rebuild(conn: Connection, chunk: list[int], table: ComponentTable) -> int:
     values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
     values.update(_running_totals(batch.component_id, values))
     order = np.arange(len(batch))
-    rows = _ledger_tuples(conn, batch, values, order, raw=True)
-    insert_rows(conn, store.ledger, LEDGER_COLUMNS, rows)
+    cols = _ledger_columns(conn, batch, values, order, raw=True)
+    insert_columns(conn, store.ledger, LEDGER_COLUMNS, cols)
     return len(batch)
 
 

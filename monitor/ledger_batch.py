@@ -323,18 +323,35 @@ def bind_times(conn: Connection, table: Table, column: str, ns: np.ndarray) -> l
     return values[inv.reshape(-1)].tolist()
 
 
-def insert_rows(conn: Connection, table: Table, columns: list[str], rows: list[tuple]) -> None:
-    """``INSERT`` plain tuples (values already in the driver's types) in one executemany."""
-    if not rows:
+INSERT_CHUNK = 100
+"""Rows per ``INSERT ... VALUES (...), (...), ...`` statement of :func:`insert_columns`."""
+
+
+def insert_columns(conn: Connection, table: Table, columns: list[str], values: list) -> None:
+    """``INSERT`` rows given column by column (lists of equal length, values already in
+    the driver's types), :data:`INSERT_CHUNK` rows per statement.
+
+    One statement per row costs the driver a reset and a step per row; many rows per
+    statement bind the same values with a fraction of that overhead. The columns are
+    interleaved into one flat parameter list by slice assignment, with no tuple per row.
+    """
+    n, k = len(values[0]), len(columns)
+    if not n:
         return
+    flat: list = [None] * (n * k)
+    for j, col in enumerate(values):
+        flat[j::k] = col
     mark = _placeholder(conn)
-    sql = (
-        f"INSERT INTO {table.name} ({', '.join(columns)}) "
-        f"VALUES ({', '.join([mark] * len(columns))})"
-    )
+    row = f"({', '.join([mark] * k)})"
+    head = f"INSERT INTO {table.name} ({', '.join(columns)}) VALUES "
+    per, full = INSERT_CHUNK, n - n % INSERT_CHUNK
     cur = conn.connection.dbapi_connection.cursor()
     try:
-        cur.executemany(sql, rows)
+        if full:
+            chunks = [flat[a * k : (a + per) * k] for a in range(0, full, per)]
+            cur.executemany(head + ", ".join([row] * per), chunks)
+        if full < n:
+            cur.execute(head + ", ".join([row] * (n - full)), flat[full * k :])
     finally:
         cur.close()
 

@@ -176,6 +176,21 @@ def test_hour_meter_running_backwards_against_stored_history(engine):
     )
 
 
+@pytest.mark.parametrize(("early_end", "status"), [(4990, "accepted"), (5005, "rejected")])
+def test_hour_meters_of_a_file_around_the_stored_history(engine, early_end, status):
+    # stored: day 5 (5000-5008 h); the file: day 3 before it and day 7 after it. A day 3
+    # that ends at 5005 h is followed by the stored day 5 starting at 5000 h.
+    first = service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv")
+    assert first.status == service.ACCEPTED
+    both = day_csv("LR-101", "left", 3, early_end - 8, early_end)
+    both += day_csv("LR-101", "left", 7, 5010, 5018)[len(HEADER) :]
+    if status == "rejected":
+        res = assert_rejected_unchanged(engine, both, "d3-d7.csv", "5005 h at")
+        assert [p.line for p in res.problems] == [None]  # the stored upload runs backwards
+    else:
+        assert service.upload(engine, both, "d3-d7.csv").status == service.ACCEPTED
+
+
 def test_hour_meter_change_event_allows_a_reset(engine):
     # LR-102 has an hour_meter_change recorded on 2025-11-03 (tests/data/fleet.yaml)
     def nov(day, hm0, hm1):
