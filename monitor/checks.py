@@ -18,7 +18,7 @@ from sqlalchemy import Connection, and_, select
 
 from monitor import store
 from monitor.ingest_common import group_ids
-from monitor.ledger_batch import gc_paused
+from monitor.ledger_batch import gc_paused, runs_bytes
 from monitor.records import (
     Histogram,
     HistogramBatch,
@@ -98,8 +98,7 @@ def batch_shas(b: HistogramBatch) -> list[str]:
     if len(b) == 0:
         return []
     body, bounds = b.runs(DIGEST_ORDER)
-    data = np.round(body, 9).tobytes()
-    cut = (8 * bounds).tolist()
+    bodies = runs_bytes(np.round(body, 9), bounds)
     meters = (b.hour_meter_start.view(np.int64), b.hour_meter_end.view(np.int64))  # -0.0 != 0.0
     keys = (b.quantity, b.period_start_ns, b.period_end_ns, *meters)
     head_of = group_ids([pd.factorize(k)[0] for k in keys])
@@ -116,8 +115,7 @@ def batch_shas(b: HistogramBatch) -> list[str]:
     heads = np.empty(first.size, dtype=object)
     heads[:] = [f"{q}|{t0}|{t1}|{m0:.6f}|{m1:.6f}|".encode() for q, t0, t1, m0, m1 in fields]
     sha = hashlib.sha256
-    rows = zip(heads[head_of].tolist(), cut[:-1], cut[1:], strict=True)
-    return [sha(head + data[a:z]).hexdigest() for head, a, z in rows]
+    return [sha(h + x).hexdigest() for h, x in zip(heads[head_of].tolist(), bodies, strict=True)]
 
 
 def _iso_stamps(ns: np.ndarray) -> list[str]:

@@ -33,6 +33,7 @@ from monitor.ledger_batch import (
     fetch_plain,
     gc_paused,
     insert_columns,
+    runs_bytes,
     update_rows,
 )
 from monitor.ledger_metrics import (  # noqa: F401 - part of this module's interface
@@ -292,9 +293,7 @@ HISTOGRAM_COLUMNS = [
 
 def _blobs(values: np.ndarray, bounds: np.ndarray) -> list[bytes]:
     """:func:`monitor.store.pack` of each run ``values[bounds[i]:bounds[i + 1]]``."""
-    data = np.ascontiguousarray(values, dtype="<f8").tobytes()
-    cut = (8 * bounds).tolist()
-    return [data[a:z] for a, z in zip(cut[:-1], cut[1:], strict=True)]
+    return runs_bytes(np.ascontiguousarray(values, dtype="<f8"), bounds)
 
 
 def _insert_histograms(conn: Connection, plan, batch: Batch) -> None:  # noqa: ANN001

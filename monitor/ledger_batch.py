@@ -283,6 +283,18 @@ def _stored_group(cols: dict, c: int, code: np.ndarray, keep: np.ndarray, whole:
     )
 
 
+def runs_bytes(values: np.ndarray, bounds: np.ndarray) -> list[bytes]:
+    """The bytes of each run ``values[bounds[i]:bounds[i + 1]]`` of a contiguous float64
+    array (as :func:`monitor.store.pack` writes one run)."""
+    width = np.diff(bounds)
+    whole = width.size and bounds[0] == 0 and bounds[-1] == values.size
+    if whole and width[0] > 0 and (width == width[0]).all():
+        return values.view(f"V{8 * int(width[0])}").tolist()  # runs of one length: no slicing
+    data = values.tobytes()
+    cut = (8 * bounds).tolist()
+    return [data[a:z] for a, z in zip(cut[:-1], cut[1:], strict=True)]
+
+
 def fetch_plain(conn: Connection, statement, params: dict) -> list[tuple]:  # noqa: ANN001
     """Rows of an untyped statement as the driver's tuples (no Row objects built)."""
     res = conn.execute(statement, params)
