@@ -226,8 +226,29 @@ def write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 
     New ISO 4406 samples change the oil-condition factor of later uploads, so the
     ledger of a component with bearing data that got a new sample is rebuilt whole.
     """
-    with gc_paused():
+    with gc_paused(), page_cache(conn, INGEST_CACHE_KIB):
         _write_upload(conn, file_id, plan)
+
+
+INGEST_CACHE_KIB = 65_536
+"""SQLite page cache while a file's rows are written [KiB]. With the default 2 MB, a
+large file's new table and index pages spill to the WAL before the commit and are
+written again (a 1 M-band file: 2.0 s -> 1.9 s)."""
+
+
+@contextmanager
+def page_cache(conn: Connection, kib: int) -> Iterator[None]:
+    """SQLite: a page cache of ``kib`` KiB for a while, the previous size afterwards.
+    Other databases: nothing."""
+    if conn.dialect.name != "sqlite":
+        yield
+        return
+    before = conn.exec_driver_sql("PRAGMA cache_size").scalar()
+    conn.exec_driver_sql(f"PRAGMA cache_size = -{int(kib)}")
+    try:
+        yield
+    finally:
+        conn.exec_driver_sql(f"PRAGMA cache_size = {int(before)}")
 
 
 def _write_upload(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001 - UploadPlan
@@ -519,14 +540,10 @@ def _bulk_phase(conn: Connection) -> Iterator[None]:
     later = [ix for ix in store.ledger.indexes if ix.name in _BULK_INDEXES]
     for ix in later:
         ix.drop(conn)
-    before = conn.exec_driver_sql("PRAGMA cache_size").scalar()
-    conn.exec_driver_sql(f"PRAGMA cache_size = -{BULK_CACHE_KIB}")
-    try:
+    with page_cache(conn, BULK_CACHE_KIB):
         yield
         for ix in later:
             ix.create(conn)
-    finally:
-        conn.exec_driver_sql(f"PRAGMA cache_size = {int(before)}")
 
 
 def _rebuild(conn: Connection, chunk: list[int], table: ComponentTable) -> int:
