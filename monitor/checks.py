@@ -364,7 +364,8 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
 
     The new uploads and the stored ones near them are sorted per unit by period; an
     upload whose meter starts below where the one before it ended is flagged when
-    either of the two is new.
+    either of the two is new. Uploads of the same period and meter readings (the two
+    loops of a unit sent in different files) are one upload of the unit.
     """
     if not plan.n_histograms:
         return
@@ -386,6 +387,9 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
     with np.errstate(invalid="ignore"):
         back = same & (r["hm_start"][1:] < r["hm_end"][:-1] - HOUR_METER_TOLERANCE_H)
     back &= r["new"][1:] | r["new"][:-1]
+    # the other loop's histogram of a stored period is the same upload of the unit, not a
+    # step back: equal period and meter readings are one upload
+    back &= ~_same_upload(r)
     if not back.any():
         return
     changes = _meter_changes(conn, np.unique(unit))
@@ -408,6 +412,14 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
                 "hour_meter_change service event in the registry first",
             )
         )
+
+
+def _same_upload(r: dict[str, np.ndarray]) -> np.ndarray:
+    """Neighbours (in sorted order) with equal unit, period and meter readings."""
+    eq = np.ones(r["unit"].size - 1, bool)
+    for key in ("unit", "start", "end", "hm_start", "hm_end"):
+        eq &= r[key][1:] == r[key][:-1]
+    return eq
 
 
 def _stamp(ns: int) -> pd.Timestamp:

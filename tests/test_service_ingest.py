@@ -154,12 +154,10 @@ def test_overlap_against_the_last_stored_period(engine, start, end, hm, status):
         assert service.upload(engine, data, "x.csv").status == service.ACCEPTED
 
 
-@pytest.mark.xfail(strict=True, reason="defect: the other loop's upload of a stored period")
 def test_other_loop_of_a_stored_period_in_a_later_file(engine):
     # Both loops of one unit share its hour meter. The right loop's day, sent after the
     # left loop's day was stored, is one more upload of the same period and meter
-    # readings; the hour-meter rule takes the stored upload as its predecessor and
-    # reports the meter running backwards (5015 h, then 5008 h).
+    # readings, not the meter running backwards (5015 h, then 5008 h).
     for pos in ("left", "right"):
         res = service.upload(engine, day_csv("LR-101", pos, 4, 5008, 5015), f"{pos}.csv")
         assert res.status == service.ACCEPTED, [str(p) for p in res.problems]
