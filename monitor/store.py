@@ -250,8 +250,14 @@ registry_document = Table(
 
 
 def resolve_url(url: str | None = None) -> str:
-    """The database URL: the argument, else ``$DRIVESPAN_DB``, else ``sqlite:///drivespan.db``."""
-    return url or os.environ.get(ENV_URL) or DEFAULT_URL
+    """The database URL: the argument, else ``$DRIVESPAN_DB``, else ``sqlite:///drivespan.db``.
+
+    A plain file path (no ``scheme://``) is taken as a SQLite file.
+    """
+    url = url or os.environ.get(ENV_URL) or DEFAULT_URL
+    if "://" not in url:
+        url = f"sqlite:///{Path(url).expanduser().resolve()}"
+    return url
 
 
 def make_engine(url: str | None = None) -> Engine:

@@ -431,8 +431,8 @@ def stage_dashboard(args: argparse.Namespace) -> dict:
         return {"skipped": "dashboards.bench_hook.render_fleet_page not available"}
     engine = store.make_engine(f"sqlite:///{args.db}")
     t = time.perf_counter()
-    render_fleet_page(engine)
-    return {"render_s": time.perf_counter() - t, "peak_mb": _peak_mb()}
+    timings = render_fleet_page(engine)
+    return {"render_s": time.perf_counter() - t, **timings, "peak_mb": _peak_mb()}
 
 
 STAGES = {

@@ -55,3 +55,5 @@ def test_url_resolution(monkeypatch):
     monkeypatch.setenv(store.ENV_URL, "sqlite:////tmp/x.db")
     assert store.resolve_url(None) == "sqlite:////tmp/x.db"
     assert store.resolve_url("sqlite:///y.db") == "sqlite:///y.db"
+    # a plain path is a SQLite file
+    assert store.resolve_url("/tmp/fleet.db") == "sqlite:////tmp/fleet.db"
