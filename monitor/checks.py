@@ -18,7 +18,7 @@ from sqlalchemy import Connection, and_, select
 
 from monitor import store
 from monitor.ingest_common import group_ids
-from monitor.ledger_batch import gc_paused, runs_bytes
+from monitor.ledger_batch import runs_bytes
 from monitor.records import (
     Histogram,
     HistogramBatch,
@@ -27,6 +27,7 @@ from monitor.records import (
     Reading,
     utc_datetimes,
 )
+from monitor.speed import gc_paused
 
 HOUR_METER_TOLERANCE_H = 0.01
 NEIGHBOUR_WINDOW = timedelta(days=400)  # how far around a file stored uploads are compared

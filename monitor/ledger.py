@@ -31,7 +31,6 @@ from monitor.ledger_batch import (
     bind_times,
     bind_values,
     fetch_plain,
-    gc_paused,
     insert_columns,
     runs_bytes,
     update_rows,
@@ -45,6 +44,7 @@ from monitor.ledger_metrics import (  # noqa: F401 - part of this module's inter
     oil_condition,
 )
 from monitor.records import QUANTITY_PRESSURE_SPEED, ComponentModelSpec, Histogram
+from monitor.speed import gc_paused
 
 CUM_COLUMNS = {
     "cum_meter_hours": "meter_hours",

@@ -11,9 +11,6 @@ tuples, which skips SQLAlchemy's per-row parameter processing.
 
 from __future__ import annotations
 
-import gc
-from collections.abc import Iterator
-from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -381,18 +378,3 @@ def update_rows(
         cur.executemany(f"UPDATE {table.name} SET {sets} WHERE {key} = {mark}", rows)
     finally:
         cur.close()
-
-
-@contextmanager
-def gc_paused() -> Iterator[None]:
-    """Pause the cyclic garbage collector while many short-lived objects are made.
-
-    Its full passes over every live object cost more than building tens of thousands
-    of rows; the records made here hold no reference cycles."""
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()

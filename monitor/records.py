@@ -7,12 +7,13 @@ timezone-aware UTC ``datetime`` objects.
 
 from __future__ import annotations
 
-import gc
 from dataclasses import dataclass, field
 from datetime import UTC, datetime, timedelta
 from functools import cached_property
 
 import numpy as np
+
+from monitor.speed import gc_paused
 
 QUANTITY_PRESSURE = "pressure"
 QUANTITY_PRESSURE_SPEED = "pressure_speed"
@@ -168,13 +169,8 @@ class HistogramBatch:
     def histograms(self, rows: np.ndarray | None = None) -> list[Histogram]:
         """Records of all histograms (or of ``rows``), in order; arrays are views."""
         idx = np.arange(len(self)) if rows is None else np.asarray(rows, dtype=np.int64)
-        enabled = gc.isenabled()
-        gc.disable()  # many small objects, no cycles: the collector's passes cost more
-        try:
+        with gc_paused():  # many small objects, no cycles
             return self._records(idx)
-        finally:
-            if enabled:
-                gc.enable()
 
     def _records(self, idx: np.ndarray) -> list[Histogram]:
         p0, s0, h0 = (o[idx].tolist() for o in self._offsets_at())

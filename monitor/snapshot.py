@@ -20,9 +20,6 @@ Conventions
 
 from __future__ import annotations
 
-import gc
-from collections.abc import Iterator
-from contextlib import contextmanager
 from datetime import UTC, datetime, timedelta
 from itertools import chain
 
@@ -31,6 +28,7 @@ import pandas as pd
 from sqlalchemy import Connection, and_, func, literal, select
 
 from monitor import queries, store
+from monitor.speed import gc_paused
 
 LIFE_START_KINDS = ("rebuild", "replacement")
 """Service-event kinds that start a new life of a component."""
@@ -179,7 +177,7 @@ def ledger_points(
     ]
     outer_cols += [win.c[t].label(f"win_{t}") for t in TOTALS]
     q = select(*outer_cols).select_from(inner.outerjoin(win, win.c.id == inner.c.win_id))
-    with _gc_paused():
+    with gc_paused():
         return _typed(_plain_rows(conn, q), [c.name for c in q.selected_columns])
 
 
@@ -300,7 +298,7 @@ def readings_in_life(
         "test_pressure_bar",
         "oil_temp_c",
     ]
-    with _gc_paused():
+    with gc_paused():
         values = _float_matrix(_plain_rows(conn, q), len(cols))
     df = pd.DataFrame(values[:, 1:], columns=cols[1:])
     df.insert(0, "component_id", values[:, 0].astype(np.int64))
@@ -318,21 +316,6 @@ def _float_matrix(rows: list[tuple], width: int) -> np.ndarray:
     except TypeError:
         return np.array(rows, dtype=float).reshape(-1, width)
     return flat.reshape(-1, width)
-
-
-@contextmanager
-def _gc_paused() -> Iterator[None]:
-    """The cyclic garbage collector off while a large read builds its row tuples: they
-    hold no cycles and are freed by reference counting, but their number would start
-    full collections that walk every live object (about 0.1 s in every other rank of
-    the 2 000-unit benchmark store)."""
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
 
 
 def _plain_rows(conn: Connection, q) -> list[tuple]:  # noqa: ANN001 - a select
