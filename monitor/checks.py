@@ -407,12 +407,26 @@ def _check_hour_meters(conn: Connection, plan: UploadPlan, name: str) -> None:
                 lines[int(f[k - n_stored])] if k >= n_stored else None,
                 "hour_meter_start",
                 f"{hm_start:g}",
-                f"hour meter runs backwards: {float(rows['hm_end'][p]):g} h at "
-                f"{prev_end.isoformat()} then {hm_start:g} h at "
-                f"{start.isoformat()}; if the meter was changed, record an "
-                "hour_meter_change service event in the registry first",
+                _meter_message(rows, k, p, start, prev_end),
             )
         )
+
+
+def _meter_message(rows: dict, k: int, p: int, start, prev_end) -> str:  # noqa: ANN001
+    """What is wrong when upload ``k`` starts below where upload ``p`` ended."""
+    hm_start, hm_end_prev = float(rows["hm_start"][k]), float(rows["hm_end"][p])
+    if rows["start"][k] == rows["start"][p] and rows["end"][k] == rows["end"][p]:
+        return (
+            f"another upload of this unit for the same period gives the hour meter as "
+            f"{float(rows['hm_start'][p]):g}-{hm_end_prev:g} h, this one "
+            f"{hm_start:g}-{float(rows['hm_end'][k]):g} h: every drive loop of a unit "
+            "logs the unit's one hour meter, so the readings must match; correct the export"
+        )
+    return (
+        f"hour meter runs backwards: {hm_end_prev:g} h at {prev_end.isoformat()} then "
+        f"{hm_start:g} h at {start.isoformat()}; if the meter was changed, record an "
+        "hour_meter_change service event in the registry first"
+    )
 
 
 def _same_upload(r: dict[str, np.ndarray]) -> np.ndarray:

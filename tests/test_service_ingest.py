@@ -163,6 +163,21 @@ def test_other_loop_of_a_stored_period_in_a_later_file(engine):
         assert res.status == service.ACCEPTED, [str(p) for p in res.problems]
 
 
+def test_other_loop_of_a_stored_period_with_other_meter_readings_is_refused(engine):
+    assert service.upload(engine, day_csv("LR-101", "left", 4, 5008, 5015), "l.csv").status == (
+        service.ACCEPTED
+    )
+    assert_rejected_unchanged(
+        engine,
+        day_csv("LR-101", "right", 4, 5009, 5016),
+        "r.csv",
+        "same period",
+        "5008-5015 h",
+        "5009-5016 h",
+        "must match",
+    )
+
+
 def test_hour_meter_running_backwards_against_stored_history(engine):
     assert (
         service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status
