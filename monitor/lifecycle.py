@@ -241,7 +241,9 @@ def utilisation_h_per_day(
     Notes
     -----
     ``u = sum t_k / window_days`` over uploads with
-    ``as_of 00:00 - window_days <= end < as_of 00:00``.
+    ``as_of 00:00 - window_days < end <= as_of 00:00``: data up to the start of the
+    as-of day count, so an upload ending exactly at midnight is in (the same rule as
+    the fleet status's running totals).
 
     References
     ----------
@@ -258,7 +260,7 @@ def utilisation_h_per_day(
     if any(t.tzinfo is None for t in period_end):
         raise ValueError("period_end must hold timezone-aware datetimes (UTC)")
     begin = start - timedelta(days=window_days)
-    inside = np.array([begin <= t < start for t in period_end], dtype=bool)
+    inside = np.array([begin < t <= start for t in period_end], dtype=bool)
     return float(h[inside].sum()) / window_days if h.size else 0.0
 
 

@@ -78,11 +78,12 @@ def _end(days_before: float) -> datetime:
 
 
 def test_utilisation_window():
-    # as-of 2026-05-01: uploads that ended from 2026-04-01 00:00 up to 04-30 24:00 count
+    # as-of 2026-05-01: uploads that ended after 2026-04-01 00:00 up to and including
+    # 05-01 00:00 count ("data up to its start count", design brief)
     ends = [_end(31), _end(30), _end(10), _end(0.001), _end(0), _end(-1)]
-    hours = np.array([100.0, 30.0, 60.0, 90.0, 500.0, 500.0])
+    hours = np.array([100.0, 30.0, 60.0, 90.0, 45.0, 500.0])
     u = lc.utilisation_h_per_day(ends, hours, date(2026, 5, 1))
-    assert u == pytest.approx((30.0 + 60.0 + 90.0) / 30.0)  # hand-computed: 6 h/day
+    assert u == pytest.approx((60.0 + 90.0 + 45.0) / 30.0)  # hand-computed: 6.5 h/day
     assert lc.utilisation_h_per_day([], [], date(2026, 5, 1)) == 0.0
     with pytest.raises(ValueError, match="timezone-aware"):
         lc.utilisation_h_per_day([datetime(2026, 4, 20)], [1.0], date(2026, 5, 1))
