@@ -17,7 +17,7 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
-from monitor import lifecycle
+from monitor.domain import vocabulary as lifecycle
 
 FONT = "Source Sans Pro, Segoe UI, Helvetica, Arial, sans-serif"
 INK = "#2B3440"

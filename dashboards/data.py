@@ -16,8 +16,9 @@ from datetime import date
 import pandas as pd
 import streamlit as st
 
-from monitor import planning, service
-from monitor.records import Problem
+from monitor import usecases
+from monitor.domain.records import Problem
+from monitor.usecases import outputs
 
 ENV_URL = "DRIVESPAN_DB"
 MAX_UPLOAD_MB = 50
@@ -38,31 +39,31 @@ def db_url() -> str | None:
 @st.cache_resource(show_spinner=False)
 def engine(url: str | None) -> object:
     """The engine for ``url``, schema created or upgraded once per server process."""
-    return service.init_db(url)
+    return usecases.init_db(url)
 
 
 @st.cache_data(ttl=FRAME_TTL_S, max_entries=16, show_spinner="Ranking the fleet…")
 def fleet(url: str | None, as_of: date, reliability_pct: float | None) -> pd.DataFrame:
-    """Fleet status of every component (service.fleet_status), most urgent first."""
-    return service.fleet_status(engine(url), as_of, reliability_pct=reliability_pct)
+    """Fleet status of every component (usecases.fleet_status), most urgent first."""
+    return usecases.fleet_status(engine(url), as_of, reliability_pct=reliability_pct)
 
 
 @st.cache_data(ttl=FRAME_TTL_S, max_entries=32, show_spinner="Reading the unit…")
 def unit_report(url: str | None, tag: str, as_of: date, reliability_pct: float | None) -> object:
-    """service.unit_report for one unit (raises service.DomainError for an unknown tag)."""
-    return service.unit_report(engine(url), tag, as_of, reliability_pct=reliability_pct)
+    """usecases.unit_report for one unit (raises usecases.DomainError for an unknown tag)."""
+    return usecases.unit_report(engine(url), tag, as_of, reliability_pct=reliability_pct)
 
 
 @st.cache_data(ttl=FRAME_TTL_S, max_entries=4, show_spinner=False)
 def settings(url: str | None) -> dict:
-    """Stored settings overlaid on the defaults (service.get_settings)."""
-    return service.get_settings(engine(url))
+    """Stored settings overlaid on the defaults (usecases.get_settings)."""
+    return usecases.get_settings(engine(url))
 
 
 @st.cache_data(ttl=FRAME_TTL_S, max_entries=4, show_spinner=False)
 def registry_text(url: str | None) -> str | None:
     """The text of the last imported fleet registry, or None."""
-    return service.show_registry(engine(url))
+    return usecases.show_registry(engine(url))
 
 
 def plan(url: str | None, as_of: date, reliability_pct: float | None, opts: PlanOptions) -> object:
@@ -71,7 +72,7 @@ def plan(url: str | None, as_of: date, reliability_pct: float | None, opts: Plan
     Not cached itself: the plan holds read-only mappings that do not pickle, and
     planning a few thousand rows takes well under a second.
     """
-    return planning.plan_rebuilds(
+    return outputs.plan_rebuilds(
         fleet(url, as_of, reliability_pct),
         as_of,
         horizon_weeks=opts.horizon_weeks,
@@ -107,8 +108,8 @@ class PlanOptions:
 
 
 def plan_options(url: str | None) -> PlanOptions:
-    """The shop's stored plan settings (monitor.service_plan) as page options."""
-    from monitor import service_plan
+    """The shop's stored plan settings (monitor.usecases.plan) as page options."""
+    from monitor.usecases import plan as service_plan
 
     s = service_plan.get_plan_settings(engine(url))
     stock = tuple(sorted((str(k), int(v)) for k, v in (s["exchange_stock"] or {}).items()))
@@ -129,7 +130,7 @@ def plan_options(url: str | None) -> PlanOptions:
 
 def save_plan_options(url: str | None, opts: PlanOptions) -> None:
     """Store page options as the shop's plan settings (raises DomainError if rejected)."""
-    from monitor import service_plan
+    from monitor.usecases import plan as service_plan
 
     service_plan.save_plan_settings(
         engine(url),
@@ -150,8 +151,8 @@ def clear() -> None:
         fn.clear()
 
 
-def upload(url: str | None, payload: bytes, name: str) -> service.FileResult:
-    """Store one uploaded file through service.upload; clear the caches if it changed data."""
+def upload(url: str | None, payload: bytes, name: str) -> usecases.FileResult:
+    """Store one uploaded file through usecases.upload; clear the caches if it changed data."""
     if len(payload) > MAX_UPLOAD_BYTES:
         size = len(payload) / 1024 / 1024
         problem = Problem(
@@ -159,15 +160,15 @@ def upload(url: str | None, payload: bytes, name: str) -> service.FileResult:
             f"file is {size:.1f} MB, larger than the {MAX_UPLOAD_MB} MB limit: split the "
             "export into smaller files (for example one per month) and upload them one by one",
         )  # fmt: skip
-        return service.FileResult(name, service.REJECTED, problems=(problem,))
-    result = service.upload(engine(url), payload, name)
-    if result.status == service.ACCEPTED:
+        return usecases.FileResult(name, usecases.REJECTED, problems=(problem,))
+    result = usecases.upload(engine(url), payload, name)
+    if result.status == usecases.ACCEPTED:
         clear()
     return result
 
 
 def save_settings(url: str | None, values: dict) -> dict:
-    """Validate and store settings (service.save_settings) and clear the caches."""
-    saved = service.save_settings(engine(url), values)
+    """Validate and store settings (usecases.save_settings) and clear the caches."""
+    saved = usecases.save_settings(engine(url), values)
     clear()
     return saved

@@ -12,8 +12,8 @@ import numpy as np
 
 from demo_fleet.duty import MID_BAR
 from demo_fleet.scenario import OIL_NU40_MM2S, OIL_NU100_MM2S
-from monitor.bearings import contamination_factor_from_iso4406
-from monitor.bearings import oil_life_factor as _iso281_oil_factor
+from monitor.models.bearings import contamination_factor_from_iso4406
+from monitor.models.bearings import oil_life_factor as _iso281_oil_factor
 
 CLEAN_CODE = (18, 16, 13)
 """ISO 4406 code of the fleet oil in normal service (common practice, no source)."""
@@ -116,7 +116,7 @@ def oil_life_factor(model: dict, speed_rpm: np.ndarray, ec: np.ndarray) -> np.nd
     -----
     ``a_oil = aISO(kappa_i, eC Cu / P_i) / aISO(1, eC_ref Cu / P_R)`` with
     ``P_i = P_R dp_i / dp_R`` (ISO 281:2007 clause 6.3, relative to the rated
-    condition; computed with :func:`monitor.bearings.oil_life_factor`).
+    condition; computed with :func:`monitor.models.bearings.oil_life_factor`).
     """
     speed = np.asarray(speed_rpm, dtype=float).reshape(-1, 1)
     ec = np.asarray(ec, dtype=float).reshape(-1, 1)

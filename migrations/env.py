@@ -2,7 +2,7 @@
 
 from alembic import context
 
-from monitor.store import make_engine, metadata
+from monitor.store.db import make_engine, metadata
 
 config = context.config
 target_metadata = metadata

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+from datetime import date
 from pathlib import Path
 
 import pytest
@@ -41,3 +42,15 @@ def db_url(request, tmp_path) -> str:
     if request.param == "sqlite":
         return f"sqlite:///{tmp_path / 'drivespan.db'}"
     return request.getfixturevalue("pg_url")
+
+
+GOLDEN_END = date(2026, 12, 1)
+"""Last day of the shared demo fleet's data; its as-of day is the day after."""
+
+
+@pytest.fixture(scope="session")
+def full_demo(tmp_path_factory):
+    """The demo fleet at full scale, built once per test run (about 30 s)."""
+    from monitor.usecases.demo import build_demo
+
+    return build_demo(tmp_path_factory.mktemp("full-demo") / "demo", end_date=GOLDEN_END)

@@ -157,13 +157,13 @@ def broken_upload(as_of: date = AS_OF) -> bytes:
 
 def build_store(url: str, folder: Path, as_of: date = AS_OF) -> dict[str, Path]:
     """Create the store at ``url`` and load the fleet into it through the service."""
-    from monitor import service
+    from monitor import usecases
 
     files = write_fleet(folder, as_of)
-    engine = service.init_db(url)
+    engine = usecases.init_db(url)
     try:
-        service.import_registry(engine, files["registry"].read_bytes(), "registry.yaml")
-        results = service.ingest_paths(
+        usecases.import_registry(engine, files["registry"].read_bytes(), "registry.yaml")
+        results = usecases.ingest_paths(
             engine, [files["hot"], files["mild"], files["conv"], files["readings"]]
         )
     finally:

@@ -5,7 +5,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from monitor import bearings as b
+from monitor.models import bearings as b
 
 # ISO 281:2007, table of the reliability factor a1 (2 significant figures).
 A1_TABLE = [

@@ -16,7 +16,8 @@ from pathlib import Path
 import pytest
 
 from dashboards import launch
-from monitor import queries, service
+from monitor import usecases
+from monitor.store import queries
 from tests import dashboard_fleet as fx
 
 pytestmark = pytest.mark.browser
@@ -60,12 +61,12 @@ def demo_store(tmp_path_factory) -> str:
     fx.build_store(url, folder / "checked", as_of=today)
     demo = generate(folder / "demo", seed=7, end_date=today - timedelta(days=1), years=1.0,
                     units_scale=0.1)  # fmt: skip
-    engine = service.init_db(url)
+    engine = usecases.init_db(url)
     try:
-        service.import_registry(engine, demo.registry_path.read_bytes(), "registry.yaml")
-        results = service.ingest_paths(engine, demo.export_paths)
+        usecases.import_registry(engine, demo.registry_path.read_bytes(), "registry.yaml")
+        results = usecases.ingest_paths(engine, demo.export_paths)
         assert {r.status for r in results} <= {"accepted"}, [r.summary for r in results]
-        first = service.fleet_status(engine, today).iloc[0]
+        first = usecases.fleet_status(engine, today).iloc[0]
         # the checked fleet's AA-HOT has used 109 % of its life: no hours left, the
         # most urgent there is; among components with none left the contract breaks
         # ties by due date (all: the as-of date) then tag, and "AA-" sorts first
@@ -170,7 +171,7 @@ def test_fleet_unit_upload_plan_settings_in_chromium(page, server, demo_store):
 
 
 def _counts(url: str) -> dict[str, int]:
-    engine = service.init_db(url)
+    engine = usecases.init_db(url)
     try:
         with engine.connect() as conn:
             return queries.table_counts(conn)

@@ -10,8 +10,8 @@ import openpyxl
 import pytest
 from click.testing import CliRunner
 
-from monitor import demo
 from monitor.cli import main
+from monitor.usecases import demo
 
 DATA = Path(__file__).parent / "data"
 
@@ -65,7 +65,8 @@ def test_plan_rejects_a_negative_capacity_in_one_line(fleet_db):
 
 
 def test_plan_save_stores_the_shop_settings(fleet_db):
-    from monitor import service, service_plan
+    from monitor import usecases
+    from monitor.usecases import plan as service_plan
 
     res = CliRunner().invoke(
         main,
@@ -83,7 +84,7 @@ def test_plan_save_stores_the_shop_settings(fleet_db):
         ],
     )
     assert res.exit_code == 0, res.output
-    stored = service_plan.get_plan_settings(service.init_db(fleet_db))
+    stored = service_plan.get_plan_settings(usecases.init_db(fleet_db))
     assert stored["horizon_weeks"] == 6 and stored["capacity_per_week"] == 2
 
 

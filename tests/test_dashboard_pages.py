@@ -11,7 +11,8 @@ from pathlib import Path
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from monitor import queries, service
+from monitor import usecases
+from monitor.store import queries
 from tests import dashboard_fleet as fx
 
 APP = Path(__file__).resolve().parent.parent / "dashboards" / "streamlit_app.py"
@@ -39,7 +40,7 @@ def start(page: str | None = None, unit: str | None = None) -> AppTest:
 
 
 def counts(url: str) -> dict[str, int]:
-    engine = service.init_db(url)
+    engine = usecases.init_db(url)
     try:
         with engine.connect() as conn:
             return queries.table_counts(conn)
@@ -180,12 +181,12 @@ def test_settings_page_saves_and_refuses_unordered_bands(store):
     inputs["due at or below [h]"].set_value(2000.0)  # above plan (1000): refused
     at.button[0].click().run()  # the form's submit button
     assert "Not saved" in at.error[0].value and "plan_h" in at.error[0].value
-    assert service.get_settings(service.init_db(store))["status_limits"]["due_h"] == 250.0
+    assert usecases.get_settings(usecases.init_db(store))["status_limits"]["due_h"] == 250.0
     inputs = {n.label: n for n in at.number_input}
     inputs["due at or below [h]"].set_value(500.0)
     at.button[0].click().run()
     assert at.success, [e.value for e in at.error]
-    assert service.get_settings(service.init_db(store))["status_limits"]["due_h"] == 500.0
+    assert usecases.get_settings(usecases.init_db(store))["status_limits"]["due_h"] == 500.0
     at.switch_page("app_pages/fleet.py").run()  # AB-CONV (455 h) is now "due soon"
     table = ranking(at)
     assert table.loc[table["unit"] == "AB-CONV", "status"].iloc[0].endswith("due soon")

@@ -76,7 +76,7 @@ def _a_iso_roller(kappa: np.ndarray, x: np.ndarray) -> np.ndarray:
 
 def _ec(code: str) -> float:
     """eC of an ISO 4406 code by its >= 14 um number: the project's documented mapping
-    (monitor.bearings.ISO4406_CLEANLINESS_MAP) with the middle of the ISO 281 guide
+    (monitor.models.bearings.ISO4406_CLEANLINESS_MAP) with the middle of the ISO 281 guide
     range for pitch diameters below 100 mm."""
     r14 = int(code.split("/")[2])
     return 0.55 if r14 <= 12 else 0.4 if r14 <= 14 else 0.2 if r14 <= 16 else 0.05
@@ -257,7 +257,7 @@ def test_command_line_entry_writes_and_reports(tmp_path, capsys):
 
 
 def test_registry_parses_without_problems(fleet):
-    from monitor.registry import load_registry
+    from monitor.ingest.registry import load_registry
 
     registry, problems = load_registry(
         fleet.registry_path.read_text(encoding="utf-8"), fleet.registry_path.name
@@ -271,7 +271,7 @@ def test_registry_parses_without_problems(fleet):
 
 
 def test_every_export_parses_without_problems(fleet):
-    from monitor.ingest import parse_file
+    from monitor.ingest.parse import parse_file
 
     histograms = readings = 0
     for path in fleet.export_paths:
@@ -284,7 +284,7 @@ def test_every_export_parses_without_problems(fleet):
 
 
 def test_broken_export_is_rejected_with_its_faults(fleet):
-    from monitor.ingest import parse_file
+    from monitor.ingest.parse import parse_file
 
     parsed = parse_file(fleet.broken_path.read_bytes(), fleet.broken_path.name)
     assert not parsed.ok

@@ -1,10 +1,10 @@
 """The demo's stories, read through drivespan's own outputs.
 
-One demo is built per module with :func:`monitor.demo.build_demo` (generate, create a
+One demo is built per module with :func:`monitor.usecases.demo.build_demo` (generate, create a
 SQLite store, import the registry, ingest every export) on a fixed end date and a
 share of the fleet (every story unit and every unit with a due role among the first
 units of each site is kept). The checks then use only what a planner would see:
-``service.fleet_status`` at the demo's as-of date and ``service_plan.make_plan``.
+``usecases.fleet_status`` at the demo's as-of date and ``service_plan.make_plan``.
 """
 
 from __future__ import annotations
@@ -15,8 +15,10 @@ import pandas as pd
 import pytest
 
 from demo_fleet.scenario import DUE_ROLES
-from monitor import queries, service, service_plan, store
-from monitor.demo import build_demo
+from monitor import usecases
+from monitor.store import db, queries
+from monitor.usecases import plan as service_plan
+from monitor.usecases.demo import build_demo
 
 END = date(2025, 6, 30)
 SCALE = 0.3
@@ -37,14 +39,14 @@ def demo(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def engine(demo):
-    eng = store.make_engine(demo.db_url)
+    eng = db.make_engine(demo.db_url)
     yield eng
     eng.dispose()
 
 
 @pytest.fixture(scope="module")
 def status(demo, engine) -> pd.DataFrame:
-    return service.fleet_status(engine, demo.as_of)
+    return usecases.fleet_status(engine, demo.as_of)
 
 
 @pytest.fixture(scope="module")
@@ -65,14 +67,14 @@ def test_as_of_is_the_day_after_the_end_date(demo):
 BROKEN = "broken_export.csv"
 
 
-def _messages(result: service.FileResult) -> list[str]:
+def _messages(result: usecases.FileResult) -> list[str]:
     return [p.message.lower() for p in result.problems]
 
 
 def test_every_generated_file_except_the_broken_one_is_accepted(demo, engine):
     good = [r for r in demo.results if r.name != BROKEN]
     assert len(good) > 10
-    refused = [r.summary for r in good if r.status != service.ACCEPTED or r.problems]
+    refused = [r.summary for r in good if r.status != usecases.ACCEPTED or r.problems]
     assert refused == []
     assert good[0].kind == "registry"
     with engine.connect() as conn:
@@ -83,14 +85,14 @@ def test_every_generated_file_except_the_broken_one_is_accepted(demo, engine):
 
 def test_broken_export_is_rejected_and_stores_nothing(demo, engine):
     for result in (r for r in demo.results if r.name == BROKEN):  # when the demo shows it
-        assert result.status == service.REJECTED and result.histograms == 0
+        assert result.status == usecases.REJECTED and result.histograms == 0
     broken = demo.folder / "exports" / BROKEN
     with engine.connect() as conn:
         before = queries.table_counts(conn)
-    result = service.upload(engine, broken.read_bytes(), broken.name)
+    result = usecases.upload(engine, broken.read_bytes(), broken.name)
     with engine.connect() as conn:
         after = queries.table_counts(conn)
-    assert result.status == service.REJECTED
+    assert result.status == usecases.REJECTED
     assert any("overlap" in m for m in _messages(result)), _messages(result)
     assert any("hour meter" in m for m in _messages(result)), _messages(result)
     assert after == before

@@ -17,7 +17,8 @@ import pytest
 from click.testing import CliRunner
 from sqlalchemy import select
 
-from monitor import cli, service, store
+from monitor import cli, usecases
+from monitor.store import db
 
 AS_OF = "2026-03-02"
 START = datetime(2026, 1, 1, tzinfo=UTC)
@@ -99,11 +100,11 @@ def readings_csv(readings: dict = READINGS, unit: str = "PX-1") -> bytes:
 
 
 def build(url: str, files: list[tuple[str, bytes]]) -> None:
-    engine = service.init_db(url)
-    service.import_registry(engine, REGISTRY, "px.yaml")
+    engine = usecases.init_db(url)
+    usecases.import_registry(engine, REGISTRY, "px.yaml")
     for name, data in files:
-        res = service.upload(engine, data, name)
-        assert res.status in (service.ACCEPTED, service.DUPLICATE), [str(p) for p in res.problems]
+        res = usecases.upload(engine, data, name)
+        assert res.status in (usecases.ACCEPTED, usecases.DUPLICATE), [str(p) for p in res.problems]
     engine.dispose()
 
 
@@ -247,8 +248,8 @@ def test_as_of_cuts_data_at_the_start_of_the_day(sqlite_url):
 
 
 def _ledger(url: str) -> pd.DataFrame:
-    engine = store.make_engine(url)
-    t = store.ledger
+    engine = db.make_engine(url)
+    t = db.ledger
     with engine.connect() as conn:
         df = pd.DataFrame(conn.execute(select(t)).mappings().all())
     engine.dispose()
@@ -260,8 +261,8 @@ def test_ledger_written_at_ingest_equals_recompute(sqlite_url):
     build(sqlite_url, list(reversed(standard_files())))
     before = _ledger(sqlite_url)
     assert len(before) == 2 * DAYS
-    engine = store.make_engine(sqlite_url)
-    assert service.recompute(engine) == 2 * DAYS
+    engine = db.make_engine(sqlite_url)
+    assert usecases.recompute(engine) == 2 * DAYS
     engine.dispose()
     pd.testing.assert_frame_equal(before, _ledger(sqlite_url), rtol=1e-12)
 
@@ -274,11 +275,11 @@ def test_order_and_duplicates_do_not_change_the_ranking(tmp_path):
     files += [("feb.csv", hist_csv(range(31, DAYS))), ("late.csv", hist_csv(range(55, DAYS)))]
     build(b, files)
     assert rank_json(a) == rank_json(b)
-    engine = store.make_engine(b)
-    res = service.upload(engine, hist_csv(range(54, DAYS)), "late-again.csv")
+    engine = db.make_engine(b)
+    res = usecases.upload(engine, hist_csv(range(54, DAYS)), "late-again.csv")
     engine.dispose()
     # 6 stored days x 2 loops, all with equal content: accepted, nothing new written
-    assert res.status == service.ACCEPTED and res.skipped == 12 and res.histograms == 0
+    assert res.status == usecases.ACCEPTED and res.skipped == 12 and res.histograms == 0
     assert rank_json(a) == rank_json(b)
 
 
@@ -315,8 +316,8 @@ def test_rebuild_resets_consumed_fraction_and_wear_trend(sqlite_url):
     assert left["flags"] == ["few_wear_readings"]
     # the other loop is untouched
     assert rows["right"]["consumed_fraction"] == pytest.approx(CONSUMED_RIGHT, rel=1e-6)
-    engine = store.make_engine(sqlite_url)
-    rep = service.unit_report(engine, "PX-1", date(2026, 3, 2))
+    engine = db.make_engine(sqlite_url)
+    rep = usecases.unit_report(engine, "PX-1", date(2026, 3, 2))
     engine.dispose()
     cd = rep.components["left"].case_drain
     assert cd["used"].tolist() == [False, False, True]
@@ -326,8 +327,8 @@ def test_rebuild_resets_consumed_fraction_and_wear_trend(sqlite_url):
 
 def test_unit_report_details(sqlite_url):
     build(sqlite_url, standard_files())
-    engine = store.make_engine(sqlite_url)
-    rep = service.unit_report(engine, "PX-1", date(2026, 3, 2))
+    engine = db.make_engine(sqlite_url)
+    rep = usecases.unit_report(engine, "PX-1", date(2026, 3, 2))
     engine.dispose()
     assert rep.unit == {
         "tag": "PX-1",

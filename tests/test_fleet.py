@@ -1,6 +1,6 @@
 """Fleet status from running totals (pure): arithmetic, flags, ordering and records.
 
-The inputs are built here the way :mod:`monitor.snapshot` delivers them: running
+The inputs are built here the way :mod:`monitor.store.status_reads` delivers them: running
 totals of the ledger at the as-of instant (``now``), at the last rebuild (``base``),
 before the rate window (``win``) and one utilisation period back (``month``).
 """
@@ -16,7 +16,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from monitor import fleet, lifecycle, snapshot
+from monitor import fleet
+from monitor.models import lifecycle
+from monitor.store import status_reads
+from tests import reference_life
 
 AS_OF = date(2026, 6, 1)
 T = datetime(2026, 6, 1, tzinfo=UTC)
@@ -201,7 +204,7 @@ def test_running_totals_agree_with_lifecycle_per_upload_sums(hours, dmg, window)
     d = h * dmg * np.linspace(1.0, 2.0, h.size)  # heavier duty later
     cum_h, cum_d = np.cumsum(h), np.cumsum(d)
     # the window row as monitor.snapshot picks it: last row with cum_hours <= now - window
-    below = np.nonzero(cum_h <= cum_h[-1] - window + snapshot.CUM_TOLERANCE_H)[0]
+    below = np.nonzero(cum_h <= cum_h[-1] - window + status_reads.CUM_TOLERANCE_H)[0]
     now = (T - timedelta(days=1), 0.0, {"cum_hours": cum_h[-1], "cum_damage": cum_d[-1]})
     win = None
     if below.size:
@@ -210,7 +213,7 @@ def test_running_totals_agree_with_lifecycle_per_upload_sums(hours, dmg, window)
     got = fleet.bearing_frame(
         inputs(component(now=now, win=win)), fleet.StatusParams(rate_window_h=window)
     ).iloc[0]
-    ref = lifecycle.bearing_life(d, h, rate_window_h=window)
+    ref = reference_life.bearing_life(d, h, rate_window_h=window)
     assert got["consumed_fraction"] == pytest.approx(ref.consumed, rel=1e-9)
     if math.isnan(ref.rate_per_h):
         assert math.isnan(got["damage_rate_per_h"])
@@ -285,21 +288,21 @@ def test_empty_inputs_give_empty_frame_with_columns():
 
 
 def test_limiting_and_due_dates_of_all_rows_equal_the_scalar_definitions():
-    # Oracle: lifecycle.limiting_mode and lifecycle.due_date row by row, over ties,
+    # Oracle: the brief's definitions restated row by row (tests/reference_life.py), over ties,
     # missing estimates, zero / missing utilisation, negative, infinite and huge hours.
     nan, inf = math.nan, math.inf
     bearing = np.array([100.0, 300.0, nan, nan, 50.0, 50.0, inf, 0.0, -5.0, 1e12, 7.9, inf])
     wear_h = np.array([200.0, 300.0, 80.0, nan, nan, 40.0, inf, 10.0, nan, nan, nan, 5.0])
     util = np.array([10.0, 7.0, 3.0, 5.0, 0.0, nan, 5.0, 2.0, 4.0, 1e-9, 8.0, -1.0])
-    rem, names = fleet._limiting(bearing, wear_h)
-    pairs = [lifecycle.limiting_mode(b, w) for b, w in zip(bearing, wear_h, strict=True)]
+    rem, names = lifecycle.limiting_modes(bearing, wear_h)
+    pairs = [reference_life.limiting_mode(b, w) for b, w in zip(bearing, wear_h, strict=True)]
     np.testing.assert_array_equal(rem, [p[0] for p in pairs])
     assert names == [p[1] for p in pairs]
-    got = fleet._due_dates(AS_OF, rem, util)
-    assert got == [lifecycle.due_date(AS_OF, r, u) for r, u in zip(rem, util, strict=True)]
+    got = lifecycle.due_dates(AS_OF, rem, util)
+    assert got == [reference_life.due_date(AS_OF, r, u) for r, u in zip(rem, util, strict=True)]
     assert got[0] == AS_OF + timedelta(days=10) and got[3] is None and got[9] is None
     with pytest.raises(ValueError, match="a day"):
-        fleet._due_dates(T, rem, util)
+        lifecycle.due_dates(T, rem, util)
 
 
 def test_flag_lists_are_separate_per_row():

@@ -5,7 +5,7 @@ import math
 import numpy as np
 import pytest
 
-from monitor import hydraulics as hy
+from monitor.models import hydraulics as hy
 
 
 def test_pump_reference_example():

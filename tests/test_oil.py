@@ -5,7 +5,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from monitor import oil
+from monitor.models import oil
 
 
 @pytest.mark.parametrize(

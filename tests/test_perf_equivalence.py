@@ -2,9 +2,9 @@
 
 Ingest and ``recompute`` build the ledger from arrays stacked per shape group and write
 it with the DBAPI ``executemany``. Here the same ledger is rebuilt the slow, plain way:
-one :class:`~monitor.records.Histogram` per stored row (``ledger.stored_histograms``),
+one :class:`~monitor.records.Histogram` per stored row (``ledger_rows.stored_histograms``),
 a pressure-by-speed matrix chosen over a plain histogram of the same upload, the oil
-condition per component, ``ledger.metrics_for`` per component and running totals by
+condition per component, ``ledger_rows.metrics_for`` per component and running totals by
 ``numpy.cumsum`` in period order. Both must agree on an invented demo fleet (bearing
 models with ISO 4406 samples, rebuilds, several files) and on the sample files with
 pressure-by-speed matrices, on SQLite and on PostgreSQL.
@@ -20,9 +20,14 @@ import pandas as pd
 import pytest
 from sqlalchemy import select
 
-from monitor import checks, fleet, ledger, oil, queries, service, snapshot, store
-from monitor.demo import build_demo
-from monitor.ingest import parse_file
+from monitor import fleet, usecases
+from monitor.fleet import wear_status
+from monitor.ingest.parse import parse_file
+from monitor.ledger import batch_metrics, metrics
+from monitor.models import oil
+from monitor.store import checks, db, ledger_rows, queries, status_reads
+from monitor.usecases.demo import build_demo
+from tests import reference_paths
 
 DATA = Path(__file__).parent / "data"
 VALUE_COLUMNS = [
@@ -33,7 +38,7 @@ VALUE_COLUMNS = [
     "relief_hours",
     "cutoff_hours",
     "relief_heat_kwh",
-    *ledger.CUM_COLUMNS,
+    *ledger_rows.CUM_COLUMNS,
 ]
 
 # One upload of LR-102 left with both a plain histogram and a pressure-by-speed matrix:
@@ -51,7 +56,7 @@ BOTH_QUANTITIES = (
 
 
 def _stored_ledger(conn) -> pd.DataFrame:  # noqa: ANN001
-    t = store.ledger
+    t = db.ledger
     df = pd.DataFrame(conn.execute(select(t)).mappings().all())
     df["period_end"] = pd.to_datetime(df["period_end"], utc=True)
     df = df.sort_values(["component_id", "period_end", "upload_id"], ignore_index=True)
@@ -59,13 +64,13 @@ def _stored_ledger(conn) -> pd.DataFrame:  # noqa: ANN001
 
 
 def _samples(conn, cid: int) -> pd.DataFrame:  # noqa: ANN001
-    r = store.reading
+    r = db.reading
     q = select(r.c.taken_at, r.c.iso4406).where(r.c.component_id == cid, r.c.iso4406.is_not(None))
     return pd.DataFrame(conn.execute(q).all(), columns=["taken_at", "iso4406"])
 
 
 def _reference_component(conn, cid: int, row: pd.Series) -> pd.DataFrame | None:  # noqa: ANN001
-    hs, uploads = ledger.stored_histograms(conn, [cid])
+    hs, uploads = reference_paths.stored_histograms(conn, [cid])
     chosen: dict[int, object] = {}
     for (h, _), up in zip(hs, uploads, strict=True):
         if up not in chosen or h.quantity == "pressure_speed":
@@ -75,12 +80,14 @@ def _reference_component(conn, cid: int, row: pd.Series) -> pd.DataFrame | None:
     ups, hists = list(chosen), list(chosen.values())
     model = queries.model_spec(row)
     cond = None
-    if ledger.has_bearing_data(model):
-        line = oil.oil_line_from_spec(**ledger._oil_kwargs(row.to_dict()))
-        cond = ledger.oil_condition(_samples(conn, cid), [h.period_end for h in hists], model, line)
+    if metrics.has_bearing_data(model):
+        line = oil.oil_line_from_spec(**batch_metrics._oil_kwargs(queries.oil_spec(row)))
+        cond = metrics.oil_condition(
+            _samples(conn, cid), [h.period_end for h in hists], model, line
+        )
         if cond is None:
-            cond = ledger.OilCondition(np.full(len(hists), np.nan), np.full(len(hists), np.nan))
-    met = ledger.metrics_for(hists, model, cond)
+            cond = metrics.OilCondition(np.full(len(hists), np.nan), np.full(len(hists), np.nan))
+    met = reference_paths.metrics_for(hists, model, cond)
     df = pd.DataFrame(
         {
             "upload_id": ups,
@@ -88,10 +95,10 @@ def _reference_component(conn, cid: int, row: pd.Series) -> pd.DataFrame | None:
             "period_end": pd.to_datetime([h.period_end for h in hists], utc=True),
             "hour_meter_end": [h.hour_meter_end for h in hists],
             "meter_hours": [h.hour_meter_end - h.hour_meter_start for h in hists],
-            **{k: getattr(met, k) for k in ledger.Metrics.__dataclass_fields__},
+            **{k: getattr(met, k) for k in metrics.Metrics.__dataclass_fields__},
         }
     ).sort_values(["period_end", "upload_id"], ignore_index=True)
-    for cum, col in ledger.CUM_COLUMNS.items():
+    for cum, col in ledger_rows.CUM_COLUMNS.items():
         df[cum] = np.cumsum(df[col].to_numpy())
     return df
 
@@ -122,14 +129,14 @@ def demo_store(tmp_path_factory):
 
 
 def test_demo_ledger_at_ingest_and_after_recompute_match_reference(demo_store):
-    engine = store.make_engine(demo_store.db_url)
+    engine = db.make_engine(demo_store.db_url)
     with engine.connect() as conn:
         n_samples = conn.execute(
-            select(store.reading.c.id).where(store.reading.c.iso4406.is_not(None))
+            select(db.reading.c.id).where(db.reading.c.iso4406.is_not(None))
         ).all()
     assert n_samples, "the demo should exercise the oil-condition factor"
     assert_ledger_matches_reference(engine)  # as written by ingest, file by file
-    n = service.recompute(engine)
+    n = usecases.recompute(engine)
     assert_ledger_matches_reference(engine)
     with engine.connect() as conn:
         assert n == len(_stored_ledger(conn))
@@ -142,26 +149,26 @@ def _sample_files() -> list[tuple[str, bytes]]:
 
 
 def test_sample_files_with_matrices_match_reference(db_url):
-    engine = service.init_db(db_url)
-    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    engine = usecases.init_db(db_url)
+    usecases.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
     for name, data in _sample_files():
-        res = service.upload(engine, data, name)
-        assert res.status == service.ACCEPTED, [str(p) for p in res.problems]
+        res = usecases.upload(engine, data, name)
+        assert res.status == usecases.ACCEPTED, [str(p) for p in res.problems]
     with engine.connect() as conn:
-        quantities = set(conn.execute(select(store.histogram.c.quantity)).scalars())
+        quantities = set(conn.execute(select(db.histogram.c.quantity)).scalars())
     assert quantities == {"pressure", "pressure_speed"}
     assert_ledger_matches_reference(engine)
-    service.recompute(engine)
+    usecases.recompute(engine)
     assert_ledger_matches_reference(engine)
     engine.dispose()
 
 
 def test_both_quantities_of_one_upload_keep_the_matrix(sqlite_url):
-    engine = service.init_db(sqlite_url)
-    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
-    assert service.upload(engine, BOTH_QUANTITIES.encode(), "both.csv").status == "accepted"
+    engine = usecases.init_db(sqlite_url)
+    usecases.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    assert usecases.upload(engine, BOTH_QUANTITIES.encode(), "both.csv").status == "accepted"
     with engine.connect() as conn:
-        rows = conn.execute(select(store.ledger.c.hours, store.ledger.c.damage)).all()
+        rows = conn.execute(select(db.ledger.c.hours, db.ledger.c.damage)).all()
     # one ledger row; 6 h in both histograms, so compare the damage with each alone
     assert len(rows) == 1 and rows[0][0] == pytest.approx(6.0)
     parsed = parse_file(BOTH_QUANTITIES.encode(), "both.csv")
@@ -170,9 +177,9 @@ def test_both_quantities_of_one_upload_keep_the_matrix(sqlite_url):
         comps = queries.components_frame(conn)
     model = queries.model_spec(comps[comps["unit"] == "LR-102"].iloc[0])
     nan = np.full(1, np.nan)
-    cond = ledger.OilCondition(nan, nan) if ledger.has_bearing_data(model) else None
-    matrix = ledger.metrics_for([by_q["pressure_speed"]], model, cond).damage[0]
-    plain = ledger.metrics_for([by_q["pressure"]], model, cond).damage[0]
+    cond = metrics.OilCondition(nan, nan) if metrics.has_bearing_data(model) else None
+    matrix = reference_paths.metrics_for([by_q["pressure_speed"]], model, cond).damage[0]
+    plain = reference_paths.metrics_for([by_q["pressure"]], model, cond).damage[0]
     assert matrix != pytest.approx(plain)  # the test can tell them apart
     assert rows[0][1] == pytest.approx(matrix, rel=1e-12)
     engine.dispose()
@@ -184,8 +191,8 @@ def test_batched_histogram_hashes_equal_one_at_a_time():
         hs += parse_file((DATA / name).read_bytes(), name).histograms
     hs += parse_file(BOTH_QUANTITIES.encode(), "both.csv").histograms
     assert {h.quantity for h in hs} == {"pressure", "pressure_speed"}
-    assert checks.histogram_shas(hs) == [checks.histogram_sha(h) for h in hs]
-    assert checks.histogram_shas([]) == []
+    assert reference_paths.histogram_shas(hs) == [reference_paths.histogram_sha(h) for h in hs]
+    assert reference_paths.histogram_shas([]) == []
 
 
 def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) -> pd.DataFrame:  # noqa: ANN001
@@ -204,7 +211,7 @@ def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) ->
                 row,
                 fleet.oil_viscosity_line(row),
             )
-            vals, step = fleet._wear_one(x, y, limit, row, params)
+            vals, step = wear_status._wear_one(x, y, limit, row, params)
         rows.append((*vals, len(rd), np.nan if limit is None else limit, step))
     cols = [
         "case_drain_level_lpm",
@@ -221,12 +228,12 @@ def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) ->
 
 @pytest.mark.parametrize("min_readings", [3, 6])
 def test_batched_wear_trends_equal_one_at_a_time(demo_store, min_readings):
-    engine = store.make_engine(demo_store.db_url)
+    engine = db.make_engine(demo_store.db_url)
     t = fleet.as_of_instant(demo_store.as_of)
     params = fleet.StatusParams(min_wear_readings=min_readings)
     with engine.connect() as conn:
-        inputs = snapshot.status_inputs(conn, t, rate_window_h=500.0)
-        readings = snapshot.readings_in_life(conn, t)
+        inputs = status_reads.status_inputs(conn, t, rate_window_h=500.0)
+        readings = status_reads.readings_in_life(conn, t)
     engine.dispose()
     # a step in one series and ties in another, so both branches are compared
     readings = readings.copy()
@@ -244,19 +251,21 @@ def test_batched_wear_trends_equal_one_at_a_time(demo_store, min_readings):
 def test_recompute_keeps_the_schema_and_rolls_back_whole(sqlite_url):
     from alembic import command
 
-    engine = service.init_db(sqlite_url)
-    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    engine = usecases.init_db(sqlite_url)
+    usecases.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
     for name, data in _sample_files():
-        service.upload(engine, data, name)
+        usecases.upload(engine, data, name)
     with engine.connect() as conn:
         before = _stored_ledger(conn)
-    with pytest.raises(RuntimeError, match="stop"), store.transaction(engine) as conn:
-        ledger.recompute(conn)  # SQLite: the ledger table is dropped and built again
+    with pytest.raises(RuntimeError, match="stop"), db.transaction(engine) as conn:
+        ledger_rows.recompute(
+            conn, batch_metrics.batch_metrics
+        )  # SQLite: the ledger table is dropped and built again
         raise RuntimeError("stop")
     with engine.connect() as conn:
         pd.testing.assert_frame_equal(_stored_ledger(conn), before)
-    service.recompute(engine)
-    command.check(store.alembic_config(sqlite_url))  # same tables and indexes as before
+    usecases.recompute(engine)
+    command.check(db.alembic_config(sqlite_url))  # same tables and indexes as before
     engine.dispose()
 
 
@@ -266,12 +275,12 @@ def test_batch_hashes_equal_one_at_a_time_on_mixed_shapes():
     import sys
 
     sys.path.insert(0, str(Path(__file__).parent))
-    from bench_ingest import make_csv  # seeded invented fleet, 30 % matrices
+    from benchmarks.bench_ingest import make_csv  # seeded invented fleet, 30 % matrices
 
     parsed = parse_file(make_csv(6000, speed_fraction=0.3), "mixed.csv")
     assert parsed.ok and len(set(parsed.batch.n_pressure.tolist())) > 3
     assert (parsed.batch.n_speed > 0).any() and (parsed.batch.n_speed == 0).any()
-    want = [checks.histogram_sha(h) for h in parsed.histograms]
+    want = [reference_paths.histogram_sha(h) for h in parsed.histograms]
     assert checks.batch_shas(parsed.batch) == want
     rows = np.arange(len(want))[::-3]
     assert checks.batch_shas(parsed.batch.take(rows)) == [want[i] for i in rows]
@@ -280,30 +289,30 @@ def test_batch_hashes_equal_one_at_a_time_on_mixed_shapes():
 def test_ingest_stores_what_the_records_say(sqlite_url):
     """Every stored histogram row equals its parsed record packed one at a time: bands,
     hours, total, mean speed, period and content hash; one upload per unit and period."""
-    engine = service.init_db(sqlite_url)
-    service.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
+    engine = usecases.init_db(sqlite_url)
+    usecases.import_registry(engine, (DATA / "fleet.yaml").read_text(), "fleet.yaml")
     later = BOTH_QUANTITIES.replace("04-02", "04-06").replace("04-01", "04-05")
     files = [*_sample_files(), ("later.csv", later.replace(",900,906,", ",910,916,").encode())]
     records = []
     for name, data in files:
-        res = service.upload(engine, data, name)
-        assert res.status == service.ACCEPTED
+        res = usecases.upload(engine, data, name)
+        assert res.status == usecases.ACCEPTED
         if not res.skipped:  # upload.json repeats stored histograms
             records += parse_file(data, name).histograms
-    t, u = store.histogram, store.upload
+    t, u = db.histogram, db.upload
     with engine.connect() as conn:
         rows = conn.execute(select(t, u.c.unit_id).join(u).order_by(t.c.id)).mappings().all()
     assert len(rows) == len(records)
     for h, r in zip(records, rows, strict=True):
         speed = None
         if h.speed_low_rpm is not None:
-            speed = store.pack(np.r_[h.speed_low_rpm, h.speed_high_rpm])
-        assert r["pressure_bands"] == store.pack(np.r_[h.pressure_low_bar, h.pressure_high_bar])
-        assert (r["speed_bands"], r["hours"]) == (speed, store.pack(h.hours))
+            speed = db.pack(np.r_[h.speed_low_rpm, h.speed_high_rpm])
+        assert r["pressure_bands"] == db.pack(np.r_[h.pressure_low_bar, h.pressure_high_bar])
+        assert (r["speed_bands"], r["hours"]) == (speed, db.pack(h.hours))
         assert r["total_hours"] == float(np.sum(np.asarray(h.hours).reshape(1, -1), axis=1)[0])
         assert r["mean_speed_rpm"] == h.mean_speed_rpm and r["quantity"] == h.quantity
         assert pd.Timestamp(r["period_start"], tz="UTC") == h.period_start
-        assert r["content_sha256"] == checks.histogram_sha(h)
+        assert r["content_sha256"] == reference_paths.histogram_sha(h)
     uploads = {(r["upload_id"], r["unit_id"]) for r in rows}
     assert len(uploads) == len({r["upload_id"] for r in rows})
     engine.dispose()
@@ -312,11 +321,11 @@ def test_ingest_stores_what_the_records_say(sqlite_url):
 def test_readings_matrix_with_and_without_nulls():
     # The fast path (no NULL) and the fallback (a NULL test condition) give np.array's floats.
     rows = [(1, 10.0, 1.5, 250.0, 50.0), (2, 11.0, 1.25, 240.0, 45.5)]
-    np.testing.assert_array_equal(snapshot._float_matrix(rows, 5), np.array(rows, dtype=float))
+    np.testing.assert_array_equal(status_reads._float_matrix(rows, 5), np.array(rows, dtype=float))
     rows.append((3, 12.0, 1.75, None, None))
-    got = snapshot._float_matrix(rows, 5)
+    got = status_reads._float_matrix(rows, 5)
     np.testing.assert_array_equal(got[:, :3], np.array([r[:3] for r in rows], dtype=float))
-    assert np.isnan(got[2, 3:]).all() and snapshot._float_matrix([], 5).shape == (0, 5)
+    assert np.isnan(got[2, 3:]).all() and status_reads._float_matrix([], 5).shape == (0, 5)
 
 
 def test_status_reads_are_index_seeks_without_sorts(sqlite_url):
@@ -325,13 +334,13 @@ def test_status_reads_are_index_seeks_without_sorts(sqlite_url):
     # covering index alone.
     from sqlalchemy import event
 
-    engine = service.init_db(sqlite_url)
+    engine = usecases.init_db(sqlite_url)
     seen: list[tuple] = []
     event.listen(engine, "before_cursor_execute", lambda *a: seen.append((a[2], a[3])))
     t = fleet.as_of_instant(date(2026, 6, 1))
     with engine.connect() as conn:
-        snapshot.ledger_points(conn, t, rate_window_h=500.0)
-        snapshot.readings_in_life(conn, t)
+        status_reads.ledger_points(conn, t, rate_window_h=500.0)
+        status_reads.readings_in_life(conn, t)
         plans = [
             [r[3] for r in conn.exec_driver_sql("EXPLAIN QUERY PLAN " + sql, params).all()]
             for sql, params in list(seen)

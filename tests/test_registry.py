@@ -6,7 +6,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from monitor.registry import dump_registry, load_registry
+from monitor.ingest.registry import dump_registry, load_registry
 
 DATA = Path(__file__).parent / "data"
 GOOD = (DATA / "fleet.yaml").read_text()

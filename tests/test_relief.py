@@ -6,7 +6,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from monitor import relief
+from monitor.models import relief
 
 LO = np.array([0.0, 100.0, 200.0, 300.0, 400.0, 420.0])
 HI = np.array([100.0, 200.0, 300.0, 400.0, 420.0, 440.0])  # midpoints 50..410, 430

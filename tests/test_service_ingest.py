@@ -11,7 +11,8 @@ from pathlib import Path
 import pytest
 from sqlalchemy import select
 
-from monitor import queries, service, store
+from monitor import usecases
+from monitor.store import db, queries
 
 DATA = Path(__file__).parent / "data"
 HEADER = (
@@ -43,23 +44,23 @@ def snapshot(engine) -> dict:
     """Every row of every table, for an exact before/after comparison."""
     out = {}
     with engine.connect() as conn:
-        for name, table in store.metadata.tables.items():
+        for name, table in db.metadata.tables.items():
             out[name] = sorted(map(tuple, conn.execute(select(table)).all()), key=repr)
     return out
 
 
 @pytest.fixture
 def engine(db_url):
-    eng = service.init_db(db_url)
-    service.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    eng = usecases.init_db(db_url)
+    usecases.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
     yield eng
     eng.dispose()
 
 
 def assert_rejected_unchanged(engine, data: bytes, name: str, *fragments: str):
     before = snapshot(engine)
-    res = service.upload(engine, data, name)
-    assert res.status == service.REJECTED, res
+    res = usecases.upload(engine, data, name)
+    assert res.status == usecases.REJECTED, res
     text = " | ".join(str(p) for p in res.problems)
     for frag in fragments:
         assert frag in text, text
@@ -69,8 +70,8 @@ def assert_rejected_unchanged(engine, data: bytes, name: str, *fragments: str):
 
 def test_good_files_are_stored_with_ledger_rows(engine):
     for name in ("hist_pressure.csv", "hist_pressure_speed.csv", "readings.csv"):
-        res = service.upload(engine, (DATA / name).read_bytes(), name)
-        assert res.status == service.ACCEPTED, res.problems
+        res = usecases.upload(engine, (DATA / name).read_bytes(), name)
+        assert res.status == usecases.ACCEPTED, res.problems
     with engine.connect() as conn:
         counts = queries.table_counts(conn)
     assert counts["histogram"] == 4 and counts["reading"] == 3
@@ -80,10 +81,10 @@ def test_good_files_are_stored_with_ledger_rows(engine):
 
 def test_same_file_twice_counts_once(engine):
     data = (DATA / "hist_pressure.csv").read_bytes()
-    assert service.upload(engine, data, "hist_pressure.csv").status == service.ACCEPTED
+    assert usecases.upload(engine, data, "hist_pressure.csv").status == usecases.ACCEPTED
     before = snapshot(engine)
-    again = service.upload(engine, data, "renamed-copy.csv")
-    assert again.status == service.DUPLICATE
+    again = usecases.upload(engine, data, "renamed-copy.csv")
+    assert again.status == usecases.DUPLICATE
     assert snapshot(engine) == before
 
 
@@ -106,7 +107,7 @@ def test_unknown_position_names_the_registered_ones(engine):
 
 def test_overlap_with_stored_upload_of_different_content_names_it(engine):
     first = day_csv("LR-101", "left", 1, 5000, 5008)
-    assert service.upload(engine, first, "day1.csv").status == service.ACCEPTED
+    assert usecases.upload(engine, first, "day1.csv").status == usecases.ACCEPTED
     changed = day_csv("LR-101", "left", 1, 5000, 5008, split=(0.2, 0.3, 0.5))
     assert_rejected_unchanged(
         engine, changed, "day1-again.csv", "overlaps stored upload", "day1.csv"
@@ -116,10 +117,10 @@ def test_overlap_with_stored_upload_of_different_content_names_it(engine):
 def test_identical_histogram_in_another_file_is_skipped_not_counted_twice(engine):
     day1 = day_csv("LR-101", "left", 1, 5000, 5008)
     day2 = day_csv("LR-101", "left", 2, 5008, 5015)
-    assert service.upload(engine, day1, "day1.csv").status == service.ACCEPTED
+    assert usecases.upload(engine, day1, "day1.csv").status == usecases.ACCEPTED
     both = day1 + day2[len(HEADER) :]
-    res = service.upload(engine, both, "days1-2.csv")
-    assert res.status == service.ACCEPTED and res.skipped == 1 and res.histograms == 1
+    res = usecases.upload(engine, both, "days1-2.csv")
+    assert res.status == usecases.ACCEPTED and res.skipped == 1 and res.histograms == 1
     with engine.connect() as conn:
         assert queries.table_counts(conn)["ledger"] == 2
 
@@ -134,24 +135,24 @@ def shifted_csv(unit: str, position: str, start: str, end: str, hm0: float, hm1:
     ("start", "end", "hm", "status"),
     [
         # starts exactly where the last stored period ends: no overlap
-        ("2026-04-05T00:00:00Z", "2026-04-06T00:00:00Z", (5015, 5020), service.ACCEPTED),
+        ("2026-04-05T00:00:00Z", "2026-04-06T00:00:00Z", (5015, 5020), usecases.ACCEPTED),
         # starts before the last stored period ends and runs past it
-        ("2026-04-04T12:00:00Z", "2026-04-05T12:00:00Z", (5015, 5020), service.REJECTED),
+        ("2026-04-04T12:00:00Z", "2026-04-05T12:00:00Z", (5015, 5020), usecases.REJECTED),
         # inside the first stored day, ends before the last stored one starts
-        ("2026-04-03T06:00:00Z", "2026-04-03T12:00:00Z", (5009, 5010), service.REJECTED),
+        ("2026-04-03T06:00:00Z", "2026-04-03T12:00:00Z", (5009, 5010), usecases.REJECTED),
         # before everything stored
-        ("2026-04-01T00:00:00Z", "2026-04-02T00:00:00Z", (4990, 4995), service.ACCEPTED),
+        ("2026-04-01T00:00:00Z", "2026-04-02T00:00:00Z", (4990, 4995), usecases.ACCEPTED),
     ],
 )
 def test_overlap_against_the_last_stored_period(engine, start, end, hm, status):
     for day, hm0, hm1 in ((3, 5000, 5008), (4, 5008, 5015)):
-        ok = service.upload(engine, day_csv("LR-101", "left", day, hm0, hm1), f"d{day}.csv")
-        assert ok.status == service.ACCEPTED
+        ok = usecases.upload(engine, day_csv("LR-101", "left", day, hm0, hm1), f"d{day}.csv")
+        assert ok.status == usecases.ACCEPTED
     data = shifted_csv("LR-101", "left", start, end, *hm)
-    if status == service.REJECTED:
+    if status == usecases.REJECTED:
         assert_rejected_unchanged(engine, data, "x.csv", "overlaps stored upload")
     else:
-        assert service.upload(engine, data, "x.csv").status == service.ACCEPTED
+        assert usecases.upload(engine, data, "x.csv").status == usecases.ACCEPTED
 
 
 def test_other_loop_of_a_stored_period_in_a_later_file(engine):
@@ -159,13 +160,13 @@ def test_other_loop_of_a_stored_period_in_a_later_file(engine):
     # left loop's day was stored, is one more upload of the same period and meter
     # readings, not the meter running backwards (5015 h, then 5008 h).
     for pos in ("left", "right"):
-        res = service.upload(engine, day_csv("LR-101", pos, 4, 5008, 5015), f"{pos}.csv")
-        assert res.status == service.ACCEPTED, [str(p) for p in res.problems]
+        res = usecases.upload(engine, day_csv("LR-101", pos, 4, 5008, 5015), f"{pos}.csv")
+        assert res.status == usecases.ACCEPTED, [str(p) for p in res.problems]
 
 
 def test_other_loop_of_a_stored_period_with_other_meter_readings_is_refused(engine):
-    assert service.upload(engine, day_csv("LR-101", "left", 4, 5008, 5015), "l.csv").status == (
-        service.ACCEPTED
+    assert usecases.upload(engine, day_csv("LR-101", "left", 4, 5008, 5015), "l.csv").status == (
+        usecases.ACCEPTED
     )
     assert_rejected_unchanged(
         engine,
@@ -180,8 +181,8 @@ def test_other_loop_of_a_stored_period_with_other_meter_readings_is_refused(engi
 
 def test_hour_meter_running_backwards_against_stored_history(engine):
     assert (
-        service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status
-        == service.ACCEPTED
+        usecases.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv").status
+        == usecases.ACCEPTED
     )
     later_but_lower = day_csv("LR-101", "left", 6, 4990, 4998)
     assert_rejected_unchanged(
@@ -193,15 +194,15 @@ def test_hour_meter_running_backwards_against_stored_history(engine):
 def test_hour_meters_of_a_file_around_the_stored_history(engine, early_end, status):
     # stored: day 5 (5000-5008 h); the file: day 3 before it and day 7 after it. A day 3
     # that ends at 5005 h is followed by the stored day 5 starting at 5000 h.
-    first = service.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv")
-    assert first.status == service.ACCEPTED
+    first = usecases.upload(engine, day_csv("LR-101", "left", 5, 5000, 5008), "d5.csv")
+    assert first.status == usecases.ACCEPTED
     both = day_csv("LR-101", "left", 3, early_end - 8, early_end)
     both += day_csv("LR-101", "left", 7, 5010, 5018)[len(HEADER) :]
     if status == "rejected":
         res = assert_rejected_unchanged(engine, both, "d3-d7.csv", "5005 h at")
         assert [p.line for p in res.problems] == [None]  # the stored upload runs backwards
     else:
-        assert service.upload(engine, both, "d3-d7.csv").status == service.ACCEPTED
+        assert usecases.upload(engine, both, "d3-d7.csv").status == usecases.ACCEPTED
 
 
 def test_hour_meter_change_event_allows_a_reset(engine):
@@ -210,15 +211,15 @@ def test_hour_meter_change_event_allows_a_reset(engine):
         text = day_csv("LR-102", "left", day, hm0, hm1).decode()
         return text.replace("2026-04-", "2025-11-").encode()
 
-    assert service.upload(engine, nov(1, 2200, 2208), "before.csv").status == service.ACCEPTED
-    res = service.upload(engine, nov(4, 10, 18), "after.csv")
-    assert res.status == service.ACCEPTED, res.problems
+    assert usecases.upload(engine, nov(1, 2200, 2208), "before.csv").status == usecases.ACCEPTED
+    res = usecases.upload(engine, nov(4, 10, 18), "after.csv")
+    assert res.status == usecases.ACCEPTED, res.problems
 
 
 def test_dry_run_validates_and_stores_nothing(engine):
     before = snapshot(engine)
-    res = service.upload(engine, (DATA / "hist_pressure.csv").read_bytes(), "h.csv", dry_run=True)
-    assert res.status == service.VALID and res.histograms == 3
+    res = usecases.upload(engine, (DATA / "hist_pressure.csv").read_bytes(), "h.csv", dry_run=True)
+    assert res.status == usecases.VALID and res.histograms == 3
     assert snapshot(engine) == before
 
 
@@ -231,11 +232,11 @@ def test_every_broken_sample_is_rejected_and_changes_nothing(engine, bad):
 def test_csv_semicolon_and_json_store_identical_histograms(tmp_path):
     blobs = []
     for i, name in enumerate(("hist_pressure.csv", "hist_pressure_semicolon.csv")):
-        eng = service.init_db(f"sqlite:///{tmp_path / f'{i}.db'}")
-        service.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
-        assert service.upload(eng, (DATA / name).read_bytes(), name).status == "accepted"
+        eng = usecases.init_db(f"sqlite:///{tmp_path / f'{i}.db'}")
+        usecases.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+        assert usecases.upload(eng, (DATA / name).read_bytes(), name).status == "accepted"
         with eng.connect() as conn:
-            t = store.histogram
+            t = db.histogram
             blobs.append(
                 conn.execute(
                     select(t.c.pressure_bands, t.c.hours, t.c.content_sha256).order_by(
@@ -249,11 +250,11 @@ def test_csv_semicolon_and_json_store_identical_histograms(tmp_path):
 
 def test_registry_import_is_idempotent_and_bad_registry_changes_nothing(engine):
     before = snapshot(engine)
-    counts = service.import_registry(engine, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    counts = usecases.import_registry(engine, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
     assert counts.created == 0 and counts.updated == 0
     assert snapshot(engine) == before
     bad = (DATA / "fleet.yaml").read_text().replace("rated_dp_bar: 400", "rated_dp_bar: -4")
-    with pytest.raises(service.DomainError) as err:
-        service.import_registry(engine, bad, "bad.yaml")
+    with pytest.raises(usecases.DomainError) as err:
+        usecases.import_registry(engine, bad, "bad.yaml")
     assert any("rated_dp_bar" in str(p) for p in err.value.problems)
     assert snapshot(engine) == before

@@ -1,5 +1,5 @@
 """Stored settings on a real SQLite file: status settings (monitor.service) and the
-rebuild plan's shop settings (monitor.service_plan).
+rebuild plan's shop settings (monitor.usecases.plan).
 
 Ranges checked: the reliability must lie in 90-99.95 % because ISO 281:2007 gives the
 life-modification factor a1 only in that range (the a1 table, Table 12 from memory; see
@@ -21,9 +21,10 @@ from pathlib import Path
 
 import pytest
 
-from monitor import queries, service, store
-from monitor import service_plan as sp
+from monitor import usecases
 from monitor.planning import ALL_SITES
+from monitor.store import db, queries
+from monitor.usecases import plan as sp
 
 DATA = Path(__file__).parent / "data"
 AS_OF = date(2026, 3, 2)  # invented as-of date (a Monday)
@@ -32,8 +33,8 @@ QUARRY, SAWMILL = "Larkspur Ridge Quarry", "Tamsin Vale Sawmill"  # sites of tes
 
 @pytest.fixture
 def engine(sqlite_url):
-    eng = service.init_db(sqlite_url)
-    service.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    eng = usecases.init_db(sqlite_url)
+    usecases.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
     yield eng
     eng.dispose()
 
@@ -49,35 +50,35 @@ def stored(engine) -> dict:
 
 def test_status_defaults_when_nothing_is_stored(engine):
     assert stored(engine) == {}
-    got = service.get_settings(engine)
-    assert got == service.DEFAULT_SETTINGS
+    got = usecases.get_settings(engine)
+    assert got == usecases.DEFAULT_SETTINGS
     assert got["reliability_pct"] == 90.0  # ISO 281 reference reliability (a1 = 1)
     got["status_limits"]["due_h"] = -1.0  # the caller's copy, not the defaults
-    assert service.get_settings(engine)["status_limits"]["due_h"] == 250.0
+    assert usecases.get_settings(engine)["status_limits"]["due_h"] == 250.0
 
 
 def test_saved_status_value_is_returned_and_survives_a_new_engine(engine, sqlite_url):
-    now = service.save_settings(engine, {"reliability_pct": 95.0, "rate_window_h": 800.0})
+    now = usecases.save_settings(engine, {"reliability_pct": 95.0, "rate_window_h": 800.0})
     assert now["reliability_pct"] == 95.0 and now["rate_window_h"] == 800.0
-    assert now["stale_days"] == service.DEFAULT_SETTINGS["stale_days"]
+    assert now["stale_days"] == usecases.DEFAULT_SETTINGS["stale_days"]
     engine.dispose()
-    fresh = store.make_engine(sqlite_url)
+    fresh = db.make_engine(sqlite_url)
     try:
-        again = service.get_settings(fresh)
+        again = usecases.get_settings(fresh)
     finally:
         fresh.dispose()
     assert again == now
 
 
 def test_a_partial_band_update_keeps_the_other_limits(engine):
-    now = service.save_settings(engine, {"status_limits": {"due_h": 400.0}})
+    now = usecases.save_settings(engine, {"status_limits": {"due_h": 400.0}})
     assert now["status_limits"] == {"overdue_h": 0.0, "due_h": 400.0, "plan_h": 1000.0}
     assert stored(engine)["status_limits"] == now["status_limits"]
 
 
 @pytest.mark.parametrize("pct", [90.0, 99.95])  # ISO 281:2007 Table 12 end points
 def test_reliability_range_end_points_are_accepted(engine, pct):
-    assert service.save_settings(engine, {"reliability_pct": pct})["reliability_pct"] == pct
+    assert usecases.save_settings(engine, {"reliability_pct": pct})["reliability_pct"] == pct
 
 
 @pytest.mark.parametrize(
@@ -102,29 +103,29 @@ def test_reliability_range_end_points_are_accepted(engine, pct):
     ],
 )
 def test_invalid_status_setting_names_the_field_and_changes_nothing(engine, values, field):
-    service.save_settings(engine, {"reliability_pct": 95.0})
-    before_raw, before = stored(engine), service.get_settings(engine)
-    with pytest.raises(service.DomainError, match=field):
-        service.save_settings(engine, values)
+    usecases.save_settings(engine, {"reliability_pct": 95.0})
+    before_raw, before = stored(engine), usecases.get_settings(engine)
+    with pytest.raises(usecases.DomainError, match=field):
+        usecases.save_settings(engine, values)
     assert stored(engine) == before_raw
-    assert service.get_settings(engine) == before
+    assert usecases.get_settings(engine) == before
 
 
 def test_the_error_says_what_is_expected(engine):
-    with pytest.raises(service.DomainError, match=r"between 90 and 99\.95 %"):
-        service.save_settings(engine, {"reliability_pct": 80.0})
-    with pytest.raises(service.DomainError, match="known are .*reliability_pct"):
-        service.save_settings(engine, {"colour": "red"})
+    with pytest.raises(usecases.DomainError, match=r"between 90 and 99\.95 %"):
+        usecases.save_settings(engine, {"reliability_pct": 80.0})
+    with pytest.raises(usecases.DomainError, match="known are .*reliability_pct"):
+        usecases.save_settings(engine, {"colour": "red"})
 
 
 def test_band_limits_that_are_not_a_mapping_give_a_domain_error(engine):
-    with pytest.raises(service.DomainError, match="status_limits"):
-        service.save_settings(engine, {"status_limits": 5})
+    with pytest.raises(usecases.DomainError, match="status_limits"):
+        usecases.save_settings(engine, {"status_limits": 5})
 
 
 def test_a_yes_no_value_is_not_a_number_of_days(engine):
-    with pytest.raises(service.DomainError, match="stale_days"):
-        service.save_settings(engine, {"stale_days": True})
+    with pytest.raises(usecases.DomainError, match="stale_days"):
+        usecases.save_settings(engine, {"stale_days": True})
 
 
 # --- plan settings ---------------------------------------------------------------------------
@@ -149,7 +150,7 @@ def test_saved_plan_settings_are_returned_and_survive_a_new_engine(engine, sqlit
     now = sp.save_plan_settings(engine, values)
     assert now == {**sp.DEFAULT_PLAN_SETTINGS, **values}
     engine.dispose()
-    fresh = service.init_db(sqlite_url)  # reopening runs the (no-op) upgrade too
+    fresh = usecases.init_db(sqlite_url)  # reopening runs the (no-op) upgrade too
     try:
         assert sp.get_plan_settings(fresh) == now
         plan = sp.make_plan(fresh, AS_OF)
@@ -183,19 +184,19 @@ def test_saved_plan_settings_are_returned_and_survive_a_new_engine(engine, sqlit
 def test_invalid_plan_setting_names_the_field_and_changes_nothing(engine, values, field):
     sp.save_plan_settings(engine, {"capacity_per_week": 4})
     before_raw, before = stored(engine), sp.get_plan_settings(engine)
-    with pytest.raises(service.DomainError, match=field):
+    with pytest.raises(usecases.DomainError, match=field):
         sp.save_plan_settings(engine, values)
     assert stored(engine) == before_raw
     assert sp.get_plan_settings(engine) == before
 
 
 def test_stock_that_is_not_a_mapping_gives_a_domain_error(engine):
-    with pytest.raises(service.DomainError, match="exchange_stock"):
+    with pytest.raises(usecases.DomainError, match="exchange_stock"):
         sp.save_plan_settings(engine, {"exchange_stock": [1, 2]})
 
 
 def test_an_absurd_horizon_is_refused_when_saved(engine):
-    with pytest.raises(service.DomainError, match="horizon_weeks"):
+    with pytest.raises(usecases.DomainError, match="horizon_weeks"):
         sp.save_plan_settings(engine, {"horizon_weeks": 10**9})
 
 
@@ -204,7 +205,7 @@ def test_an_absurd_horizon_is_refused_when_saved(engine):
 
 def test_plan_overrides_apply_to_one_plan_only(engine):
     sp.save_plan_settings(engine, {"capacity_per_week": 4, "site_capacity": {SAWMILL: 1}})
-    service.save_settings(engine, {"reliability_pct": 95.0})
+    usecases.save_settings(engine, {"reliability_pct": 95.0})
     before_raw = copy.deepcopy(stored(engine))
     plan = sp.make_plan(
         engine,
@@ -220,7 +221,7 @@ def test_plan_overrides_apply_to_one_plan_only(engine):
     assert set(plan.capacity.loc[plan.capacity["site"] == QUARRY, "capacity"]) == {0}
     assert stored(engine) == before_raw
     assert sp.get_plan_settings(engine)["capacity_per_week"] == 4
-    assert service.get_settings(engine)["reliability_pct"] == 95.0
+    assert usecases.get_settings(engine)["reliability_pct"] == 95.0
     # the next plan without overrides is back on the stored settings
     again = sp.make_plan(engine, AS_OF)
     assert again.settings.capacity_per_week == 4 and dict(again.settings.site_capacity) == {
@@ -241,7 +242,7 @@ def test_plan_overrides_apply_to_one_plan_only(engine):
 def test_a_bad_override_is_refused_and_stores_nothing(engine, kwargs, field):
     sp.save_plan_settings(engine, {"capacity_per_week": 4})
     before_raw = stored(engine)
-    with pytest.raises(service.DomainError, match=field):
+    with pytest.raises(usecases.DomainError, match=field):
         sp.make_plan(engine, AS_OF, **kwargs)
     assert stored(engine) == before_raw
 

@@ -6,7 +6,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from monitor import bearings, spectrum
+from monitor.models import bearings, spectrum
 
 RATED = dict(rated_life_h=4000.0, rated_dp_bar=380.0, rated_speed_rpm=2500.0)
 EDGES_LO = np.arange(0.0, 500.0, 50.0)  # ten 50-bar bands, 0-500 bar

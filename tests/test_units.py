@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from monitor import units as U
+from monitor.ingest import units as U
 
 # NIST SP 811 (2008), Appendix B.8: 1 psi = 6.894757 E+03 Pa; 1 gallon (U.S.) = 3.785412 E-03 m3
 # (exact definition 231 in3 = 3.785411784 L).

@@ -8,7 +8,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 from scipy import stats
 
-from monitor import oil, wear
+from monitor.models import oil, wear
 
 VG46 = oil.oil_line_from_spec(iso_vg=46, viscosity_index=100)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboards import charts, data, ui
-from monitor import exports
+from monitor.usecases import outputs
 
 ctx = ui.context()
 fleet = data.fleet(ctx.url, ctx.as_of, ctx.reliability_pct)
@@ -58,7 +58,7 @@ if c2.button("Open unit", key="f_open_go", disabled=not tags):
     st.switch_page("app_pages/unit.py", query_params={"unit": pick})
 c3.download_button(
     "Download this table (CSV)",
-    data=exports.frame_to_csv_bytes(ui.export_frame(shown)),
+    data=outputs.frame_to_csv_bytes(ui.export_frame(shown)),
     file_name=f"drivespan-fleet-{ctx.as_of.isoformat()}.csv",
     mime="text/csv",
     key="f_csv",

@@ -5,7 +5,8 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboards import charts, data, plan_view, ui
-from monitor import exports, planning, service
+from monitor import usecases
+from monitor.usecases import outputs
 
 ctx = ui.context()
 fleet = data.fleet(ctx.url, ctx.as_of, ctx.reliability_pct)
@@ -45,7 +46,7 @@ with st.expander("Shop capacity, exchange stock and pairing", expanded=False):
                 try:
                     data.save_plan_options(ctx.url, new)
                     st.success("Saved as the shop's plan settings (also used by drivespan plan).")
-                except service.DomainError as err:
+                except usecases.DomainError as err:
                     st.error(f"Not saved: {err}")
 
 try:
@@ -54,7 +55,7 @@ except ValueError as err:
     st.error(f"The plan could not be made: {err}")
     st.stop()
 
-lines = planning.plan_summary(plan)
+lines = outputs.plan_summary(plan)
 st.markdown("\n".join(f"- {line}" for line in lines[:-1]))
 a = plan.assignments
 m1, m2, m3, m4 = st.columns(4)
@@ -66,7 +67,7 @@ m4.metric("Largest lateness [days]", plan.max_late_days)
 st.plotly_chart(
     charts.plan_timeline_figure(a, ctx.as_of, plan.settings.horizon_weeks), key="plan_timeline"
 )
-site_rows = [planning.ALL_SITES, *ui.options(fleet, "site")]
+site_rows = [outputs.ALL_SITES, *ui.options(fleet, "site")]
 which = st.selectbox("Capacity use of", site_rows, key="plan_cap_site")
 st.plotly_chart(charts.capacity_figure(plan.capacity, which), key="plan_capacity")
 
@@ -85,11 +86,11 @@ if len(plan.unscheduled):
 
 d1, d2, d3 = st.columns(3)
 stem = f"drivespan-plan-{ctx.as_of.isoformat()}"
-d1.download_button("Plan as CSV", exports.plan_to_csv_bytes(plan), f"{stem}.csv", "text/csv",
+d1.download_button("Plan as CSV", outputs.plan_to_csv_bytes(plan), f"{stem}.csv", "text/csv",
                    key="plan_csv")  # fmt: skip
-d2.download_button("Plan as Excel workbook", exports.plan_to_xlsx_bytes(plan), f"{stem}.xlsx",
+d2.download_button("Plan as Excel workbook", outputs.plan_to_xlsx_bytes(plan), f"{stem}.xlsx",
                    "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                    key="plan_xlsx")  # fmt: skip
-d3.download_button("Plan as calendar (iCalendar)", exports.plan_to_ics_bytes(plan), f"{stem}.ics",
+d3.download_button("Plan as calendar (iCalendar)", outputs.plan_to_ics_bytes(plan), f"{stem}.ics",
                    "text/calendar", key="plan_ics")  # fmt: skip
-st.caption(planning.ESTIMATE_NOTICE)
+st.caption(outputs.ESTIMATE_NOTICE)

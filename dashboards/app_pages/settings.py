@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboards import data, ui
-from monitor import service
+from monitor import usecases
 
 ctx = ui.context()
 current = data.settings(ctx.url)
@@ -60,7 +60,7 @@ if submitted:
     }  # fmt: skip
     try:
         data.save_settings(ctx.url, values)
-    except service.DomainError as err:
+    except usecases.DomainError as err:
         ui.show_error(f"Not saved: {err}", err.problems)
     else:
         st.success("Settings saved; the ranking uses them from now on.")

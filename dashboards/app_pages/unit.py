@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboards import charts, data, ui
-from monitor import service
+from monitor import usecases
 
 ctx = ui.context()
 fleet = data.fleet(ctx.url, ctx.as_of, ctx.reliability_pct)
@@ -26,7 +26,7 @@ if tag != wanted:
 
 try:
     report = data.unit_report(ctx.url, tag, ctx.as_of, ctx.reliability_pct)
-except service.DomainError as err:
+except usecases.DomainError as err:
     ui.show_error(str(err), err.problems)
     st.stop()
 

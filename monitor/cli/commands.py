@@ -1,0 +1,295 @@
+"""The ``drivespan`` commands for the store, the registry, telemetry, status and service
+events (registered on :data:`monitor.cli.common.main`). Each imports what it uses when it
+runs, so ``--help`` stays fast."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from monitor import usecases
+from monitor.cli.common import (
+    RANK_TABLE_COLUMNS,
+    _as_of,
+    _frame_records,
+    _notice,
+    _print_results,
+    _table_rows,
+    db_option,
+    domain_errors,
+    emit,
+    format_option,
+    main,
+)
+
+
+@main.command()
+@db_option
+@domain_errors
+def init(db_url: str) -> None:
+    """Create or upgrade the database schema.
+
+    Example: drivespan init --db sqlite:///fleet.db
+    """
+    usecases.init_db(db_url).dispose()
+    click.echo(f"schema is up to date in {db_url}")
+
+
+@main.group()
+def fleet() -> None:
+    """Import and show the fleet registry (sites, oils, component models, units)."""
+
+
+@fleet.command("import")
+@click.argument("path", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@db_option
+@domain_errors
+def fleet_import(path: Path, db_url: str) -> None:
+    """Import a fleet registry YAML file (a second import of the same file changes nothing).
+
+    Example: drivespan fleet import demo_fleet/sample/fleet.yaml
+    """
+    engine = usecases.init_db(db_url)
+    counts = usecases.import_registry(engine, path.read_bytes(), path.name)
+    click.echo(
+        f"{path.name}: {counts.created} created, {counts.updated} updated, "
+        f"{counts.unchanged} unchanged"
+    )
+
+
+@fleet.command("show")
+@db_option
+@domain_errors
+def fleet_show(db_url: str) -> None:
+    """Print the last imported fleet registry.
+
+    Example: drivespan fleet show
+    """
+    text = usecases.show_registry(usecases.init_db(db_url))
+    if text is None:
+        raise usecases.DomainError(
+            "no fleet registry imported yet: run drivespan fleet import FILE"
+        )
+    click.echo(text, nl=False)
+
+
+@main.command("ingest")
+@click.argument("paths", nargs=-1, required=True, type=click.Path(exists=True, path_type=Path))
+@click.option("--dry-run", is_flag=True, help="Validate only; store nothing.")
+@db_option
+@domain_errors
+def ingest_cmd(paths: tuple[Path, ...], dry_run: bool, db_url: str) -> None:
+    """Ingest telemetry exports (CSV or JSON files, or folders of them).
+
+    Each file is accepted, skipped as a duplicate, or rejected whole with every
+    problem listed. Exits with status 1 if any file was rejected.
+
+    Example: drivespan ingest exports/ --dry-run
+    """
+    engine = usecases.init_db(db_url)
+    files = usecases.expand_paths(paths)
+    results = []
+    with click.progressbar(files, label="ingesting", file=sys.stderr) as bar:
+        for path in bar:
+            results.append(usecases.upload(engine, path.read_bytes(), path.name, dry_run=dry_run))
+    rejected = _print_results(results)
+    if rejected:
+        sys.exit(1)
+
+
+@main.command()
+@db_option
+@domain_errors
+def recompute(db_url: str) -> None:
+    """Rebuild the damage ledger from the stored uploads (after a model or registry change).
+
+    Example: drivespan recompute
+    """
+    engine = usecases.init_db(db_url)
+    with click.progressbar(length=1, label="recomputing", file=sys.stderr) as bar:
+
+        def progress(done: int, total: int) -> None:
+            bar.length = max(total, 1)
+            bar.update(done - bar.pos)
+
+        n = usecases.recompute(engine, progress=progress)
+    click.echo(f"ledger rebuilt: {n} rows")
+
+
+@main.command("rank")
+@click.option(
+    "--as-of",
+    "as_of",
+    metavar="DATE",
+    help="Status at the start of this day (YYYY-MM-DD); default today.",
+)
+@click.option(
+    "--reliability",
+    "reliability",
+    type=float,
+    metavar="PCT",
+    help="Planning reliability in % (90-99.95); default the stored setting.",
+)
+@click.option("--site", metavar="NAME", help="Only this site.")
+@format_option
+@db_option
+@domain_errors
+def rank_cmd(
+    as_of: str | None, reliability: float | None, site: str | None, fmt: str, db_url: str
+) -> None:
+    """List every drive, most urgent first, with remaining hours, due date and flags.
+
+    Example: drivespan rank --as-of 2026-12-01 --reliability 95 --format json
+    """
+    engine = usecases.init_db(db_url)
+    day = _as_of(as_of)
+    if not usecases.has_registry(engine):
+        raise usecases.DomainError(
+            "no fleet registry imported yet: run drivespan fleet import FILE, then ingest telemetry"
+        )
+    df = usecases.fleet_status(engine, day, reliability_pct=reliability, site=site)
+    records = usecases.rank_records(df)
+    if fmt == "json":
+        emit(records, fmt)
+        return
+    if fmt == "csv":
+        emit(_table_rows(records, list(usecases.RANK_COLUMNS)), fmt)
+        return
+    emit(_table_rows(records, RANK_TABLE_COLUMNS), fmt, RANK_TABLE_COLUMNS)
+    _notice()
+
+
+@main.command("unit")
+@click.argument("tag")
+@click.option(
+    "--as-of",
+    "as_of",
+    metavar="DATE",
+    help="Status at the start of this day (YYYY-MM-DD); default today.",
+)
+@format_option
+@db_option
+@domain_errors
+def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
+    """Show one unit: its drives' status, recent uploads, readings and service history.
+
+    Example: drivespan unit QX-104 --as-of 2026-12-01
+    """
+    engine = usecases.init_db(db_url)
+    rep = usecases.unit_report(engine, tag, _as_of(as_of))
+    status = usecases.rank_records(rep.status)
+    readings = {pos: _frame_records(d.case_drain) for pos, d in rep.components.items()}
+    if fmt == "json":
+        click.echo(
+            json.dumps(
+                {
+                    "unit": rep.unit,
+                    "status": status,
+                    "uploads": _frame_records(rep.uploads),
+                    "case_drain_readings": readings,
+                    "service_history": _frame_records(rep.service_history),
+                    "summary": rep.summary,
+                },
+                indent=2,
+                default=str,
+            )
+        )
+        return
+    if fmt == "csv":
+        emit(_table_rows(status, list(status[0]) if status else []), fmt)
+        return
+    u = rep.unit
+    click.echo(f"{u['tag']} - {u['machine_type']} at {u['site']}, oil {u['oil']}\n")
+    emit(_table_rows(status, RANK_TABLE_COLUMNS), fmt, RANK_TABLE_COLUMNS)
+    for title, df in (("recent uploads", rep.uploads), ("service history", rep.service_history)):
+        click.echo(f"\n{title}:")
+        emit(_frame_records(df), "table", list(df.columns))
+    for pos, rows in readings.items():
+        click.echo(f"\ncase-drain readings, {pos}:")
+        emit(rows, "table", ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"])
+    click.echo("")
+    for line in rep.summary:
+        click.echo(line)
+
+
+@main.group("service")
+def service_group() -> None:
+    """Record service events (rebuilds, replacements, hour-meter changes)."""
+
+
+@service_group.command("add")
+@click.argument("tag")
+@click.option("--position", metavar="P", help="Drive position (for rebuild/replacement).")
+@click.option(
+    "--kind", required=True, type=click.Choice(["rebuild", "replacement", "hour_meter_change"])
+)
+@click.option(
+    "--at",
+    "at",
+    required=True,
+    metavar="ISO",
+    help="When, ISO 8601 with offset, e.g. 2026-11-20T08:00:00Z.",
+)
+@click.option(
+    "--hour-meter",
+    "hour_meter",
+    required=True,
+    type=float,
+    metavar="H",
+    help="Hour meter at the event [h].",
+)
+@click.option(
+    "--new-hour-meter",
+    "new_hour_meter",
+    type=float,
+    metavar="H",
+    help="Reading of the new meter (hour_meter_change only) [h].",
+)
+@click.option("--note", help="Free text, e.g. what was done.")
+@db_option
+@domain_errors
+def service_add(
+    tag: str,
+    position: str | None,
+    kind: str,
+    at: str,
+    hour_meter: float,
+    new_hour_meter: float | None,
+    note: str | None,
+    db_url: str,
+) -> None:
+    """Record a rebuild or replacement of a drive, or an hour-meter change of a unit.
+
+    A rebuild or replacement starts a new life: uploads up to it and case-drain readings
+    before it no longer count for that drive's status.
+
+    \b
+    Example: drivespan service add QX-104 --position left --kind rebuild --at 2026-11-20T08:00:00Z --hour-meter 6120
+    """  # noqa: E501
+    from datetime import datetime
+
+    try:
+        when = datetime.fromisoformat(at.replace("Z", "+00:00").replace("z", "+00:00"))
+    except ValueError:
+        raise usecases.DomainError(
+            f"--at {at!r} is not an ISO 8601 time: write e.g. 2026-11-20T08:00:00Z"
+        ) from None
+    engine = usecases.init_db(db_url)
+    ev = usecases.add_service_event(
+        engine,
+        tag,
+        kind=kind,
+        at=when,
+        hour_meter=hour_meter,
+        position=position,
+        new_hour_meter=new_hour_meter,
+        note=note,
+    )
+    where = f" {ev['position']}" if ev["position"] else ""
+    click.echo(
+        f"recorded {ev['kind']} of {ev['unit']}{where} at {ev['at'].isoformat()}, "
+        f"hour meter {ev['hour_meter']:g} h"
+    )

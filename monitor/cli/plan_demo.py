@@ -1,0 +1,233 @@
+"""The ``plan``, ``dashboard`` and ``demo`` commands (registered on :data:`monitor.cli.main`)."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from monitor import usecases
+from monitor.cli.common import (
+    RANK_TABLE_COLUMNS,
+    _as_of,
+    _notice,
+    _table_rows,
+    db_option,
+    domain_errors,
+    emit,
+    main,
+)
+
+PLAN_FORMATS = ("table", "csv", "json", "xlsx", "ics")
+
+
+@main.command("plan")
+@click.option("--as-of", "as_of", metavar="DATE", help="Plan from this day (default today).")
+@click.option("--weeks", type=int, help="Horizon in weeks (default: stored setting, 12).")
+@click.option("--capacity", type=int, help="Rebuilds the shop can do per week (stored: 3).")
+@click.option("--reliability", type=float, help="Planning reliability in % (90-99.95).")
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(PLAN_FORMATS),
+    default="table",
+    show_default=True,
+    help="Output format; xlsx and ics need --output.",
+)
+@click.option(
+    "--output",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Write to this file instead of the screen.",
+)
+@click.option("--save", is_flag=True, help="Store --weeks/--capacity as the shop's settings.")
+@db_option
+@domain_errors
+def plan_cmd(
+    as_of: str | None,
+    weeks: int | None,
+    capacity: int | None,
+    reliability: float | None,
+    fmt: str,
+    output: Path | None,
+    save: bool,
+    db_url: str,
+) -> None:
+    """Plan rebuilds week by week within the shop's capacity and exchange-unit stock.
+
+    Earliest due date first; both loops of a machine share one downtime when the second
+    falls due within the pairing window. Exchange stock, turnaround and per-site
+    capacity are stored settings (see the dashboard's plan page).
+
+    \b
+    Example: drivespan plan --weeks 12 --capacity 3 --format ics --output plan.ics
+    """
+    from monitor.usecases import outputs
+    from monitor.usecases import plan as service_plan
+
+    engine = usecases.init_db(db_url)
+    if not usecases.has_registry(engine):
+        raise usecases.DomainError(
+            "no fleet registry imported yet: run drivespan fleet import FILE, then ingest telemetry"
+        )
+    if save:
+        service_plan.save_plan_settings(
+            engine,
+            {
+                k: v
+                for k, v in (("horizon_weeks", weeks), ("capacity_per_week", capacity))
+                if v is not None
+            },
+        )
+    plan = service_plan.make_plan(
+        engine,
+        _as_of(as_of),
+        reliability_pct=reliability,
+        horizon_weeks=weeks,
+        capacity_per_week=capacity,
+    )
+    if fmt in ("xlsx", "ics") and output is None:
+        raise usecases.DomainError(f"--format {fmt} writes a file: add --output FILE")
+    if fmt in ("csv", "xlsx", "ics"):
+        data = outputs.plan_export_bytes(plan, fmt)
+        if output is None:
+            click.echo(data.decode("utf-8"), nl=False)
+        else:
+            output.write_bytes(data)
+            click.echo(f"plan written to {output} ({len(plan.assignments)} rebuild(s))")
+        return
+    if fmt == "json":
+        rows = [
+            {k: fleet_plain(v) for k, v in r.items()} for r in plan.assignments.to_dict("records")
+        ]
+        emit(rows, "json")
+        return
+    for line in outputs.plan_summary(plan):
+        click.echo(line)
+    cols = [
+        "week",
+        "week_start",
+        "unit",
+        "position",
+        "site",
+        "due_date",
+        "late_days",
+        "paired_with",
+    ]
+    click.echo("")
+    emit(
+        [{k: fleet_plain(r[k]) for k in cols} for r in plan.assignments.to_dict("records")],
+        "table",
+        cols,
+    )
+
+
+def fleet_plain(value):  # noqa: ANN001, ANN201
+    from monitor import usecases
+
+    return usecases.plain_value(value)
+
+
+@main.command("dashboard")
+@click.option("--port", type=int, default=8501, show_default=True, help="Port to serve on.")
+@click.option(
+    "--host", default="127.0.0.1", show_default=True, help="Address to bind (loopback by default)."
+)
+@db_option
+@domain_errors
+def dashboard_cmd(port: int, host: str, db_url: str) -> None:
+    """Serve the Streamlit dashboard on the same store as the CLI (Ctrl+C stops it).
+
+    Example: drivespan dashboard --db sqlite:///fleet.db --port 8502
+    """
+    from dashboards import launch
+
+    usecases.init_db(db_url).dispose()
+    click.echo(f"dashboard on http://{host}:{port}  (store {db_url}; Ctrl+C to stop)")
+    proc = launch.run(db_url, port=port, host=host)
+    try:
+        proc.wait()
+    except KeyboardInterrupt:
+        proc.terminate()
+        proc.wait(timeout=10)
+
+
+@main.command("demo")
+@click.option(
+    "--folder",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=Path("drivespan-demo"),
+    show_default=True,
+    help="Folder for the demo data and database.",
+)
+@click.option("--seed", type=int, default=7, show_default=True, help="Generator seed.")
+@click.option(
+    "--scale",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="Fleet size factor (story units are always kept).",
+)
+@click.option("--no-dashboard", is_flag=True, help="Print the ranking and stop.")
+@click.option("--port", type=int, default=8501, show_default=True, help="Dashboard port.")
+@click.option("--yes", is_flag=True, help="Replace --folder even if drivespan did not make it.")
+@domain_errors
+def demo_cmd(
+    folder: Path, seed: int, scale: float, no_dashboard: bool, port: int, yes: bool
+) -> None:
+    """Build the invented demo fleet, ingest it, print the ranking and open the dashboard.
+
+    The demo gets its own folder and SQLite database; your own database is never touched.
+
+    Example: drivespan demo --no-dashboard
+    """
+    import time
+
+    from monitor.usecases import demo
+
+    if demo.folder_is_foreign(folder) and not yes:
+        if not sys.stdin.isatty() or not click.confirm(
+            f"{folder} was not made by drivespan demo; replace it?", default=False
+        ):
+            raise usecases.DomainError(
+                f"{folder} exists and was not made by drivespan demo: pass --folder NEW or --yes"
+            )
+        yes = True
+    t0 = time.perf_counter()
+    with click.progressbar(length=1, label="generating and ingesting", file=sys.stderr) as bar:
+
+        def progress(_name: str, done: int, total: int) -> None:
+            bar.length = total
+            bar.update(done - bar.pos)
+
+        res = demo.build_demo(
+            folder, seed=seed, units_scale=scale, overwrite_foreign=yes, progress=progress
+        )
+    rejected = [r for r in res.results if r.status == usecases.REJECTED]
+    accepted = sum(r.status == usecases.ACCEPTED for r in res.results)
+    click.echo(
+        f"demo fleet in {res.folder} ({time.perf_counter() - t0:.0f} s): "
+        f"{accepted} file(s) accepted, {len(rejected)} rejected"
+    )
+    for r in rejected:
+        click.echo(r.summary)
+        for p in r.problems:
+            click.echo(f"  {p}")
+    engine = usecases.init_db(res.db_url)
+    df = usecases.fleet_status(engine, res.as_of)
+    click.echo(f"\nranking as of {res.as_of.isoformat()} (most urgent first, top 15 of {len(df)}):")
+    records = usecases.rank_records(df)[:15]
+    emit(_table_rows(records, RANK_TABLE_COLUMNS), "table", RANK_TABLE_COLUMNS)
+    _notice()
+    click.echo(f"\nmore: drivespan rank --db {res.db_url} --as-of {res.as_of.isoformat()}")
+    if no_dashboard:
+        return
+    from dashboards import launch
+
+    click.echo(f"dashboard on http://127.0.0.1:{port}  (Ctrl+C to stop)")
+    proc = launch.run(res.db_url, port=port)
+    try:
+        proc.wait()
+    except KeyboardInterrupt:
+        proc.terminate()
+        proc.wait(timeout=10)

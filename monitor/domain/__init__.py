@@ -1,0 +1,1 @@
+"""Plain record types shared by every layer (canonical units)."""

@@ -1,0 +1,205 @@
+"""Unit detail: the builders behind one unit's view (life curve, case-drain table,
+window spectrum, relief per month, oil samples, plain-words summary).
+
+Pure: DataFrames and records in, DataFrames and sentences out; the status arithmetic
+they lean on lives in :mod:`monitor.fleet`. All numbers are estimates.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from monitor.domain.notices import ESTIMATE_NOTICE  # noqa: F401 - re-exported
+from monitor.fleet.params import FLAG_FEW, FLAG_RELIEF, FLAG_STALE, FLAG_STEP, StatusParams
+from monitor.fleet.wear_status import (
+    _fit,
+    _num,
+    case_drain_limit_lpm,
+    normalised_case_drain,
+    oil_viscosity_line,
+)
+from monitor.models import bearings, oil, wear
+
+# --- one unit in detail ----------------------------------------------------------------
+
+
+def window_rows(life_rows: pd.DataFrame, rate_window_h: float) -> pd.DataFrame:
+    """The most recent ledger rows whose operating hours add up to the rate window [h]."""
+    if life_rows.empty:
+        return life_rows
+    from_end = life_rows["hours"].to_numpy(float)[::-1].cumsum()[::-1]
+    # keep rows up to and including the first (from the end) that reaches the window
+    before = from_end - life_rows["hours"].to_numpy(float)
+    return life_rows[before < rate_window_h]
+
+
+def window_spectrum(hists: list) -> pd.DataFrame:
+    """Hours per pressure band summed over histograms (speed bands summed out) [h]."""
+    parts = []
+    for h in hists:
+        hours = np.asarray(h.hours, float)
+        if hours.ndim == 2:
+            hours = hours.sum(axis=1)
+        parts.append(
+            pd.DataFrame(
+                {
+                    "pressure_low_bar": h.pressure_low_bar,
+                    "pressure_high_bar": h.pressure_high_bar,
+                    "hours": hours,
+                }
+            )
+        )
+    if not parts:
+        return pd.DataFrame(columns=["pressure_low_bar", "pressure_high_bar", "hours"])
+    both = pd.concat(parts, ignore_index=True)
+    return (
+        both.groupby(["pressure_low_bar", "pressure_high_bar"], as_index=False)["hours"]
+        .sum()
+        .sort_values("pressure_low_bar", ignore_index=True)
+    )
+
+
+def life_curve(
+    life_rows: pd.DataFrame, status_row: Mapping, params: StatusParams
+) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Consumed fraction per upload since the rebuild, and its projection to end of life.
+
+    Returns
+    -------
+    tuple of pandas.DataFrame
+        ``(hour_meter [h], consumed_fraction [-])`` per upload, and two rows from now to
+        consumed fraction 1 at the current damage rate (empty without a rate).
+    """
+    a1 = float(bearings.reliability_factor(params.reliability_pct))
+    life = pd.DataFrame(
+        {
+            "hour_meter": life_rows["hour_meter_end"].to_numpy(float),
+            "consumed_fraction": life_rows["damage"].cumsum().to_numpy(float) / a1,
+        }
+    )
+    rem = _num(status_row.get("remaining_bearing_h"))
+    hm = _num(status_row.get("hour_meter"))
+    proj = pd.DataFrame(columns=["hour_meter", "consumed_fraction"])
+    if rem is not None and hm is not None:
+        c = float(status_row["consumed_fraction"])
+        proj = pd.DataFrame({"hour_meter": [hm, hm + rem], "consumed_fraction": [c, max(c, 1.0)]})
+    return life, proj
+
+
+def case_drain_detail(
+    readings: pd.DataFrame,
+    row: Mapping,
+    rebuilt_at: object,
+    status_row: Mapping,
+    params: StatusParams,
+) -> tuple[pd.DataFrame, wear.WearTrend | None]:
+    """Every case-drain reading of a component (raw and normalised) and its current trend."""
+    rd = readings[readings["case_drain_lpm"].notna()].reset_index(drop=True)
+    norm = normalised_case_drain(
+        *(rd[c].to_numpy(float) for c in ("case_drain_lpm", "test_pressure_bar", "oil_temp_c")),
+        row,
+        oil_viscosity_line(row),
+    )
+    used = (
+        np.ones(len(rd), bool)
+        if rebuilt_at is None
+        else (rd["taken_at"] >= pd.Timestamp(rebuilt_at)).to_numpy()
+    )
+    table = pd.DataFrame(
+        {
+            "taken_at": rd["taken_at"],
+            "hour_meter": rd["hour_meter"],
+            "case_drain_lpm": rd["case_drain_lpm"],
+            "normalised_lpm": np.asarray(norm, float),
+            "used": used,
+        }
+    )
+    x = table.loc[table["used"], "hour_meter"].to_numpy(float)
+    y = table.loc[table["used"], "normalised_lpm"].to_numpy(float)
+    now = _num(status_row.get("hour_meter"))
+    now = max(now if now is not None else -np.inf, x.max() if x.size else -np.inf)
+    trend = _fit(x, y, case_drain_limit_lpm(row), now, params) if x.size else None
+    if trend is not None and math.isnan(trend.slope):
+        trend = None
+    return table, trend
+
+
+def relief_monthly(rows: pd.DataFrame) -> pd.DataFrame:
+    """Relief hours, cut-off hours and relief heat per calendar month (UTC) of ledger rows."""
+    cols = ["relief_hours", "cutoff_hours", "relief_heat_kwh"]
+    if rows.empty:
+        return pd.DataFrame(columns=["month", *cols])
+    month = rows["period_end"].dt.tz_convert("UTC").dt.tz_localize(None).dt.to_period("M")
+    g = rows.assign(month=month).groupby("month", as_index=False)[cols].sum()
+    g["month"] = [p.to_timestamp().date() for p in g["month"]]
+    return g
+
+
+def oil_samples(readings: pd.DataFrame) -> pd.DataFrame:
+    """Oil cleanliness samples: taken_at, iso4406 and its scale numbers (None for '-')."""
+    rd = readings[readings["iso4406"].notna()]
+    rows = []
+    for taken, code in zip(rd["taken_at"], rd["iso4406"], strict=True):
+        try:
+            r4, r6, r14 = oil.parse_iso4406(code)
+        except ValueError:
+            r4 = r6 = r14 = None
+        rows.append({"taken_at": taken, "iso4406": code, "r4": r4, "r6": r6, "r14": r14})
+    return pd.DataFrame(rows, columns=["taken_at", "iso4406", "r4", "r6", "r14"])
+
+
+_FLAG_TEXT = {
+    FLAG_STALE: "no upload for {age} days: the estimate may be out of date",
+    FLAG_STEP: "the latest case-drain reading jumped above {step:g} times the trend "
+    "before it: check for sudden damage",
+    FLAG_RELIEF: "{rel:.1f} h at relief pressure in the rate window and no pressure "
+    "cut-off: heavy heat load on the oil",
+    FLAG_FEW: "fewer than {n} case-drain readings since the last rebuild: no wear trend yet",
+}
+
+
+def _sentence(r: Mapping, params: StatusParams) -> str:
+    name = f"{r['position']} ({r['component_model']})"
+    if r["limiting"] is None:
+        text = f"{name}: no estimate (no recent operation and no wear trend)"
+    else:
+        why = (
+            "bearing fatigue"
+            if r["limiting"] == "bearing"
+            else "case-drain wear reaching its limit"
+        )
+        text = (
+            f"{name}: about {r['remaining_h']:,.0f} h left, limited by {why}; "
+            f"{100 * r['consumed_fraction']:.0f} % of bearing life used since the last "
+            f"rebuild at {params.reliability_pct:g} % reliability"
+        )
+        if r["due_date"] is not None:
+            text += (
+                f"; due around {r['due_date'].isoformat()} at "
+                f"{r['utilisation_h_per_day']:.1f} h/day"
+            )
+    return text + "."
+
+
+def unit_summary(status: pd.DataFrame, params: StatusParams) -> list[str]:
+    """Plain-words sentences on why each component of a unit stands where it does."""
+    out = []
+    for r in status.to_dict("records"):
+        out.append(_sentence(r, params))
+        age = r["data_age_days"]
+        for flag in r["flags"]:
+            out.append(
+                f"  {r['position']}: "
+                + _FLAG_TEXT[flag].format(
+                    age="no data" if age != age else f"{age:.0f}",
+                    step=params.case_drain_step_factor,
+                    rel=r["relief_hours"],
+                    n=params.min_wear_readings,
+                )
+            )
+    out.append(ESTIMATE_NOTICE)
+    return out

@@ -1,0 +1,97 @@
+"""Settings, column names and flag names of the fleet status (shared by its modules)."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from datetime import UTC, date, datetime
+
+from monitor.models import lifecycle
+
+RANK_COLUMNS = (
+    "unit",
+    "site",
+    "position",
+    "component_model",
+    "hour_meter",
+    "hours_since_rebuild",
+    "consumed_fraction",
+    "damage_rate_per_h",
+    "remaining_bearing_h",
+    "remaining_wear_h",
+    "remaining_wear_h_low",
+    "remaining_wear_h_high",
+    "remaining_h",
+    "limiting",
+    "utilisation_h_per_day",
+    "due_date",
+    "status",
+    "relief_hours",
+    "relief_heat_kwh",
+    "last_upload_at",
+    "data_age_days",
+    "flags",
+)
+"""The stable keys of ``drivespan rank --format json``, in order."""
+
+EXTRA_COLUMNS = (
+    "machine_type",
+    "component_id",
+    "case_drain_level_lpm",
+    "case_drain_limit_lpm",
+    "case_drain_slope_lpm_per_h",
+    "cutoff_hours",
+    "has_cutoff",
+)
+"""Further columns of the status frame (dashboard detail), after the rank keys."""
+
+STATUS_COLUMNS = RANK_COLUMNS + EXTRA_COLUMNS
+
+FLAG_STALE = "stale"
+FLAG_STEP = "case_drain_step"
+FLAG_RELIEF = "heavy_relief"
+FLAG_FEW = "few_wear_readings"
+FLAGS = (FLAG_STALE, FLAG_STEP, FLAG_RELIEF, FLAG_FEW)
+
+DEFAULT_LIMITS = dict(lifecycle.DEFAULT_STATUS_LIMITS_H)
+
+
+@dataclass(frozen=True)
+class StatusParams:
+    """Settings of one status computation.
+
+    Attributes
+    ----------
+    reliability_pct : float
+        Planning reliability for ISO 281 a1 [%], 90-99.95.
+    rate_window_h : float
+        Operating hours over which the damage rate is taken [h].
+    utilisation_days : float
+        Calendar days over which utilisation is taken [d].
+    stale_days : float
+        Data older than this raises the ``stale`` flag [d].
+    status_limits : mapping
+        Remaining-hours limits of the status bands [h] (see :mod:`monitor.models.lifecycle`).
+    case_drain_step_factor : float
+        Latest normalised reading above this multiple of the fitted level before it
+        raises ``case_drain_step`` [-] (1.5: common practice, no source).
+    heavy_relief_fraction : float
+        Share of window hours at relief, without a cut-off, that raises
+        ``heavy_relief`` [-] (0.01: common practice, no source).
+    min_wear_readings : int
+        Fewest case-drain readings for a wear trend [-].
+    """
+
+    reliability_pct: float = 90.0
+    rate_window_h: float = 500.0
+    utilisation_days: float = 30.0
+    stale_days: float = 14.0
+    status_limits: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_LIMITS))
+    case_drain_step_factor: float = 1.5
+    heavy_relief_fraction: float = 0.01
+    min_wear_readings: int = 3
+
+
+def as_of_instant(as_of: date) -> datetime:
+    """The start of the as-of day in UTC: data up to this instant count."""
+    return datetime(as_of.year, as_of.month, as_of.day, tzinfo=UTC)

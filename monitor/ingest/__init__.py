@@ -1,0 +1,1 @@
+"""Files to validated records plus problems: parsing, units, checks within a file; no database."""

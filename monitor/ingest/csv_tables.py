@@ -1,0 +1,293 @@
+"""Read a telemetry CSV (histogram or readings) into a column table.
+
+One ``pandas.read_csv`` with the C engine and explicit float64 dtypes for the numeric
+columns; text columns are factorized once, so every later check works on small arrays
+of distinct values and integer codes. The header decides what the file holds and maps
+each column to its logical name and unit. Formats: ``docs/formats.md``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+import warnings
+
+import numpy as np
+import pandas as pd
+
+from monitor.ingest import units as U
+from monitor.ingest.common import (
+    HIST_NUMBERS,
+    HIST_REQUIRED,
+    HIST_TEXT,
+    HIST_UNIT_COLUMNS,
+    READ_NUMBERS,
+    READ_REQUIRED,
+    READ_TEXT,
+    READ_UNIT_COLUMNS,
+    ProblemList,
+    Table,
+)
+
+HISTOGRAM = "histogram"
+READINGS = "readings"
+
+Columns = dict[str, tuple[int, str | None]]
+"""Logical column -> (position in the header, unit spelling or None)."""
+
+
+def read_csv_table(data: bytes, head: str, probs: ProblemList) -> tuple[str, Table] | None:
+    """The kind of CSV (:data:`HISTOGRAM` or :data:`READINGS`) and its column table.
+
+    Returns None (with the reasons in ``probs``) if the header or the rows cannot be read.
+    """
+    first = head.split("\n", 1)[0].rstrip("\r")
+    sep = ";" if first.count(";") > first.count(",") else ","
+    header = [h.strip() for h in next(csv.reader([first], delimiter=sep))]
+    spec = _spec(header, first, probs)
+    if spec is None:
+        return None
+    cols = _resolve_header(header, spec, probs)
+    if probs:
+        return None
+    frame = _read_frame(data, sep, header, cols, spec[0], probs)
+    if frame is None:
+        return None
+    return spec[4], _csv_table(frame, header, cols, spec[0], sep, probs)
+
+
+def _spec(header: list[str], first: str, probs: ProblemList) -> tuple | None:
+    """Column spec of the file kind named by the header, or None with a problem."""
+    keys = [h.lower() for h in header]
+    if "taken_at" in keys:
+        return (READ_TEXT, READ_NUMBERS, READ_UNIT_COLUMNS, READ_REQUIRED, READINGS)
+    if "period_start" in keys or any(k.startswith("pressure_") for k in keys):
+        return (HIST_TEXT, HIST_NUMBERS, HIST_UNIT_COLUMNS, HIST_REQUIRED, HISTOGRAM)
+    probs.add(
+        1,
+        None,
+        first[:80],
+        "cannot tell what this file holds: a histogram CSV needs the columns "
+        f"{', '.join(HIST_REQUIRED)} (pressure columns with a unit suffix such as "
+        "`pressure_low_bar`); a readings CSV needs "
+        f"{', '.join(READ_REQUIRED)}; JSON must start with `{{` or `[`",
+    )
+    return None
+
+
+def _resolve_header(header: list[str], spec: tuple, probs: ProblemList) -> Columns:
+    """Map logical column -> (position in header, unit spelling or None)."""
+    text, numbers, unit_cols, required, kind = spec
+    plain = (*text, *numbers)
+    cols: Columns = {}
+    for i, h in enumerate(header):
+        resolved = _resolve_column(h, plain, unit_cols, kind, probs)
+        if resolved is None:
+            continue
+        logical, unit = resolved
+        if logical in cols:
+            probs.add(
+                1, h, None, f"column `{h}` repeats `{header[cols[logical][0]]}`: keep only one"
+            )
+            continue
+        cols[logical] = (i, unit)
+    _check_required(cols, required, unit_cols, kind, probs)
+    return cols
+
+
+def _resolve_column(
+    h: str, plain: tuple[str, ...], unit_cols: dict, kind: str, probs: ProblemList
+) -> tuple[str, str | None] | None:
+    """(logical name, unit) of one header cell, or None with a problem."""
+    key = h.lower()
+    if key in plain:
+        return key, None
+    prefix = next((p for p in unit_cols if key == p or key.startswith(p + "_")), None)
+    if prefix is None:
+        known = [*plain] + [f"{p}_<{'|'.join(U.SHORT_SPELLINGS[k])}>" for p, k in unit_cols.items()]
+        msg = f"unknown column `{h}` in a {kind} CSV: known columns are {', '.join(known)}"
+        probs.add(1, h, None, msg)
+        return None
+    names = " or ".join(f"`{prefix}_{s}`" for s in U.SHORT_SPELLINGS[unit_cols[prefix]])
+    if key == prefix:
+        probs.add(1, h, None, f"column `{h}` has no unit: name it {names}")
+        return None
+    suffix = h[len(prefix) + 1 :]
+    try:
+        return prefix, U.normalise_unit(unit_cols[prefix], suffix)
+    except ValueError:
+        probs.add(1, h, None, f"column `{h}` has unknown unit `{suffix}`: name it {names}")
+        return None
+
+
+def _check_required(
+    cols: Columns, required: tuple[str, ...], unit_cols: dict, kind: str, probs: ProblemList
+) -> None:
+    """One problem per required column that is absent and not already reported."""
+    for r in required:
+        if r not in cols and not any(
+            p.column == r or (p.column or "").lower().startswith(r) for p in probs.items
+        ):
+            what = f"`{r}_bar`" if r in unit_cols else f"`{r}`"
+            probs.add(
+                1,
+                None,
+                None,
+                f"missing required column {what}: a {kind} CSV needs the columns "
+                + ", ".join(f"{c}_<unit>" if c in unit_cols else c for c in required),
+            )
+
+
+def _read_frame(
+    data: bytes,
+    sep: str,
+    header: list[str],
+    cols: Columns,
+    text_cols: tuple[str, ...],
+    probs: ProblemList,
+) -> pd.DataFrame | None:
+    """One ``read_csv`` of the file: numbers as float64 (fast path) or as text (fallback)."""
+    names = [f"c{i}" for i in range(len(header))]
+    kinds = {f"c{i}": (object if lg in text_cols else "float64") for lg, (i, _) in cols.items()}
+    kw = dict(
+        sep=sep,
+        decimal="," if sep == ";" else ".",
+        header=0,
+        names=names,
+        index_col=False,
+        keep_default_na=False,
+        na_values=[""],
+        skip_blank_lines=False,
+        engine="c",  # the C tokenizer skips a UTF-8 byte-order mark itself
+    )
+    floats = {c: k for c, k in kinds.items() if k is not object}
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", pd.errors.ParserWarning)
+            return _read_typed(data, kinds, floats, kw)
+    except pd.errors.ParserWarning:  # the first data row is longer than the header
+        probs.add(
+            2,
+            None,
+            None,
+            f"line 2 has more fields than the header has columns ({len(header)}): every "
+            f"row needs one value per column, separated by `{sep}`",
+        )
+        return None
+    except pd.errors.ParserError as e:
+        _ragged(e, sep, probs)
+        return None
+
+
+def _ragged(e: pd.errors.ParserError, sep: str, probs: ProblemList) -> None:
+    """The problem for a row with the wrong number of fields (or any other read error)."""
+    m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
+    if m:
+        probs.add(
+            int(m.group(2)),
+            None,
+            None,
+            f"line {m.group(2)} has {m.group(3)} fields but the header has {m.group(1)}: "
+            f"every row needs one value per column, separated by `{sep}`",
+        )
+    else:
+        probs.add(None, None, None, f"cannot read the CSV: {e}")
+
+
+def _read_typed(data: bytes, kinds: dict, floats: dict, kw: dict) -> pd.DataFrame:
+    """Fast path: numbers as float64, text inferred (explicit text dtypes are slow)."""
+    try:
+        frame = pd.read_csv(io.BytesIO(data), dtype=floats, **kw)
+        if all(pd.api.types.is_string_dtype(frame[c]) for c in kinds if c not in floats):
+            return frame
+        return pd.read_csv(io.BytesIO(data), dtype=kinds, **kw)  # e.g. tag "0042"
+    except ValueError as e:
+        if isinstance(e, pd.errors.ParserError):
+            raise
+        return pd.read_csv(io.BytesIO(data), dtype=object, **kw)  # a cell is not a number
+
+
+def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
+    """Float64 values of a column and a mask of non-blank cells that are not numbers."""
+    if col.dtype == np.float64:
+        return col.to_numpy(), np.zeros(len(col), dtype=bool)
+    s = col.str.strip()
+    if sep == ";":
+        s = s.str.replace(",", ".", regex=False)
+    vals = pd.to_numeric(s, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+    bad = np.isnan(vals) & s.notna().to_numpy() & (s != "").to_numpy()
+    bad &= ~s.str.lower().isin(["nan"]).to_numpy()
+    return vals, bad
+
+
+def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Codes and uniques of text values; blanks around values and missing cells -> ""."""
+    codes, uniq = pd.factorize(values)
+    clean = np.array([str(u).strip() for u in uniq] + [""], dtype=object)
+    codes = np.asarray(codes, dtype=np.int64)
+    codes[codes < 0] = len(uniq)
+    remap, uniq2 = pd.factorize(clean)
+    if len(uniq2) < len(clean):
+        return remap[codes], np.asarray(uniq2, dtype=object)
+    return codes, clean
+
+
+def _csv_table(
+    frame: pd.DataFrame,
+    header: list[str],
+    cols: Columns,
+    text_cols: tuple[str, ...],
+    sep: str,
+    probs: ProblemList,
+) -> Table:
+    """Column arrays of a CSV frame in canonical units; blank lines dropped."""
+    text, num, raw, unit, notnum = _columns(frame, cols, text_cols, sep)
+    blank = _blank_rows(len(frame), text, raw, notnum)
+    keep = np.flatnonzero(~blank) if blank.any() else None
+    if keep is not None:
+        text = {k: (c[keep], q) for k, (c, q) in text.items()}
+        num = {k: v[keep] for k, v in num.items()}
+        raw = {k: v[keep] for k, v in raw.items()}
+        notnum = {k: v[keep] for k, v in notnum.items()}
+    lines = (keep if keep is not None else np.arange(len(frame))) + 2
+    names = {lg: header[i] for lg, (i, _) in cols.items()}
+    t = Table(len(lines), text, num, raw, unit, lambda r, f: (int(lines[r]), names.get(f, f)))
+    t.line0 = lines
+    t.labels = names
+    for lg, bad in notnum.items():
+        rows = np.flatnonzero(bad)
+        if rows.size:
+            t.raw[lg] = frame[f"c{cols[lg][0]}"].to_numpy(dtype=object)[
+                keep if keep is not None else slice(None)
+            ]
+            probs.add_rows(rows, lg, t, f"`{names[lg]}` must be a number")
+    return t
+
+
+def _blank_rows(n: int, text: dict, raw: dict, notnum: dict) -> np.ndarray:
+    """Mask of rows with every cell empty (blank lines in the file)."""
+    blank = np.ones(n, dtype=bool)
+    for codes, uniq in text.values():
+        blank &= (uniq == "")[codes]
+        if not blank.any():
+            return blank  # a column has no empty cell on any row still in question
+    for lg, vals in raw.items():
+        blank &= np.isnan(vals) & ~notnum[lg]
+    return blank
+
+
+def _columns(frame: pd.DataFrame, cols: Columns, text_cols: tuple[str, ...], sep: str) -> tuple:
+    """Factorized text and canonical numbers of each column, with not-a-number masks."""
+    text, num, raw, unit, notnum = {}, {}, {}, {}, {}
+    for lg, (i, u) in cols.items():
+        col = frame[f"c{i}"]
+        if lg in text_cols:
+            text[lg] = _factorize_stripped(col)
+            continue
+        vals, notnum[lg] = _numbers(col, sep)
+        kind = HIST_UNIT_COLUMNS.get(lg) or READ_UNIT_COLUMNS.get(lg)
+        raw[lg] = vals
+        num[lg] = U.convert(vals, kind, u) if kind else vals
+        unit[lg] = u or ""
+    return text, num, raw, unit, notnum

@@ -1,0 +1,143 @@
+"""Parse telemetry exports (histogram CSV, readings CSV, JSON) into records and problems.
+
+Pure: bytes or a binary file-like object in, a :class:`~monitor.records.ParsedFile` out.
+Values are converted to the canonical units of :mod:`monitor.ingest.units` and validated; every
+problem found is collected (up to :data:`MAX_PROBLEMS` listed) so the person fixing the
+file sees all of them at once. A file with any problem is rejected whole and then carries
+no records. The formats are described for users in ``docs/formats.md``.
+
+This module detects what a file holds and hands it on:
+
+- :mod:`monitor.ingest.csv_tables` reads a CSV into a column table,
+- :mod:`monitor.ingest.json_tables` reads JSON documents into column tables,
+- :mod:`monitor.ingest.histograms` validates band tables and cuts them into histograms
+  (records built by :mod:`monitor.ingest.assemble`),
+- :mod:`monitor.ingest.readings` validates readings tables,
+- :mod:`monitor.ingest.common` holds the column specs, the problem list and the checks
+  shared by all of them.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import re
+from concurrent.futures import ThreadPoolExecutor
+from typing import BinaryIO
+
+from monitor.domain.parsed import ParsedFile
+from monitor.ingest.common import (
+    HIST_NUMBERS,
+    HIST_REQUIRED,
+    HIST_TEXT,
+    HIST_UNIT_COLUMNS,
+    HOURS_TOLERANCE_FRACTION,
+    HOURS_TOLERANCE_H,
+    MAX_PROBLEMS,
+    READ_NUMBERS,
+    READ_REQUIRED,
+    READ_TEXT,
+    READ_UNIT_COLUMNS,
+    ProblemList,
+)
+from monitor.ingest.csv_tables import HISTOGRAM, read_csv_table
+from monitor.ingest.histograms import histograms
+from monitor.ingest.json_tables import read_json_tables
+from monitor.ingest.readings import readings
+
+__all__ = [
+    "HIST_NUMBERS",
+    "HIST_REQUIRED",
+    "HIST_TEXT",
+    "HIST_UNIT_COLUMNS",
+    "HOURS_TOLERANCE_FRACTION",
+    "HOURS_TOLERANCE_H",
+    "MAX_PROBLEMS",
+    "READ_NUMBERS",
+    "READ_REQUIRED",
+    "READ_TEXT",
+    "READ_UNIT_COLUMNS",
+    "parse_file",
+]
+
+_NONBLANK_RE = re.compile(rb"[^\xef\xbb\xbf \t\r\n]")
+
+
+def parse_file(stream: BinaryIO | bytes, name: str) -> ParsedFile:
+    """Parse one telemetry export, detecting its kind from its content.
+
+    Parameters
+    ----------
+    stream : binary file-like or bytes
+        The raw file content.
+    name : str
+        File name shown in problems.
+
+    Returns
+    -------
+    ParsedFile
+        Histograms [bar, rpm, h] and readings [L/min, bar, degC] in canonical units,
+        ``content_sha256`` of the raw bytes, and every problem found. If there is any
+        problem the record lists are empty.
+    """
+    data = stream if isinstance(stream, bytes | bytearray) else stream.read()
+    data = bytes(data)
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        # hashlib releases the GIL on large buffers: hash on the second core while parsing
+        digest = pool.submit(lambda: hashlib.sha256(data).hexdigest())
+        out = ParsedFile(name=name, content_sha256="")
+        probs = ProblemList(name)
+        if _is_text(data, probs):
+            _parse_text(data, probs, out)
+        out.content_sha256 = digest.result()
+    out.problems = probs.result()
+    if out.problems:
+        out.histograms, out.readings = [], []
+    return out
+
+
+def _parse_text(data: bytes, probs: ProblemList, out: ParsedFile) -> None:
+    """JSON if the text starts with ``{`` or ``[``, else CSV; records go into ``out``."""
+    head = data[:65536].decode("utf-8", errors="ignore").lstrip("\ufeff \t\r\n")
+    if head.startswith(("{", "[")):
+        bands, reads = read_json_tables(data.decode("utf-8-sig"), probs)
+        if bands is not None:
+            out.batch = histograms(bands, probs)
+        if reads is not None:
+            out.readings = readings(reads, probs)
+        return
+    read = read_csv_table(data, head, probs)
+    if read is None:
+        return
+    kind, table = read
+    if kind == HISTOGRAM:
+        out.batch = histograms(table, probs)
+    else:
+        out.readings = readings(table, probs)
+
+
+def _is_text(data: bytes, probs: ProblemList) -> bool:
+    """True if ``data`` is non-blank UTF-8 text; else record why it is unusable."""
+    if not data.isascii():
+        try:
+            data.decode("utf-8")
+        except UnicodeDecodeError as e:
+            line = data.count(b"\n", 0, e.start) + 1
+            bad = f"0x{data[e.start]:02x}"
+            probs.add(
+                line,
+                None,
+                bad,
+                f"file is not UTF-8 text (byte {bad} on line {line} is not valid UTF-8): "
+                "export it again as UTF-8, e.g. 'Save as -> CSV UTF-8' in a spreadsheet "
+                "program",
+            )
+            return False
+    if not _NONBLANK_RE.search(data[:65536]) and not _NONBLANK_RE.search(data):
+        probs.add(
+            None,
+            None,
+            None,
+            "file is empty: expected a histogram CSV, a readings CSV or a JSON document",
+        )
+        return False
+    return True

@@ -1,0 +1,504 @@
+"""Fleet registry: read and write the YAML that lists oils, component models, sites and units.
+
+Pure: text in, :class:`~monitor.records.Registry` plus problems out. Every entry is checked
+against a declared schema; problems name the field path (``component_models[1].rated_dp_bar``)
+and what is expected. Nested ``case_drain`` and ``bearing`` blocks are flattened into
+:class:`~monitor.records.ComponentModelSpec` fields with the block name as prefix. The
+schema is documented for users in ``docs/formats.md``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import fields
+from datetime import UTC, datetime
+from typing import IO, Any
+
+import yaml
+
+from monitor.domain.records import Problem
+from monitor.domain.specs import (
+    ComponentModelSpec,
+    ComponentSpec,
+    OilSpec,
+    Registry,
+    ServiceSpec,
+    SiteSpec,
+    UnitSpec,
+)
+from monitor.ingest.units import PRESSURE_RANGE_BAR
+
+ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
+"""ISO 3448 viscosity grades [mm2/s at 40 degC] (ISO 3448, from memory)."""
+
+# Field kinds: "text", "pos" (number > 0), "num0" (number >= 0), "num" (any number),
+# "pressure" (0 < bar <= 1000), ("enum", choices), "time" (ISO 8601 with offset).
+# Each schema maps key -> (kind, required, default).
+OIL = {
+    "name": ("text", True, None),
+    "iso_vg": ("pos", False, None),
+    "viscosity_index": ("num", False, None),
+    "nu40_mm2s": ("pos", False, None),
+    "nu100_mm2s": ("pos", False, None),
+}
+MODEL = {
+    "name": ("text", True, None),
+    "kind": (("enum", ("pump", "motor")), True, None),
+    "displacement_cm3": ("pos", True, None),
+    "rated_dp_bar": ("pressure", True, None),
+    "rated_speed_rpm": ("pos", True, None),
+    "rated_l10_h": ("pos", True, None),
+    "life_exponent": ("pos", False, 10.0 / 3.0),
+    "low_side_bar": ("num0", False, 0.0),
+    "relief_bar": ("pressure", True, None),
+    "cutoff_bar": ("pressure", False, None),
+    "case_drain": ("block", False, None),
+    "bearing": ("block", False, None),
+}
+CASE_DRAIN = {
+    "test_dp_bar": ("pressure", True, None),
+    "test_temp_c": ("num", True, None),
+    "new_lpm": ("pos", True, None),
+    "limit_factor": ("pos", False, None),
+    "limit_lpm": ("pos", False, None),
+    "flushing_lpm": ("num0", False, 0.0),
+}
+BEARING = {
+    "type": (("enum", ("ball", "roller")), True, None),
+    "pitch_diameter_mm": ("pos", True, None),
+    "dynamic_load_kn": ("pos", True, None),
+    "fatigue_limit_kn": ("pos", True, None),
+    "load_at_rated_kn": ("pos", True, None),
+}
+SITE = {"name": ("text", True, None)}
+UNIT = {
+    "tag": ("text", True, None),
+    "site": ("text", True, None),
+    "machine_type": ("text", True, None),
+    "oil": ("text", True, None),
+    "components": ("list", False, None),
+    "service": ("list", False, None),
+}
+COMPONENT = {
+    "position": ("text", True, None),
+    "model": ("text", True, None),
+    "serial": ("text", False, None),
+}
+SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
+SERVICE = {
+    "position": ("text", False, None),
+    "kind": (("enum", SERVICE_KINDS), True, None),
+    "at": ("time", True, None),
+    "hour_meter": ("num0", True, None),
+    "new_hour_meter": ("num0", False, None),
+    "note": ("text", False, None),
+}
+SECTIONS = ("oils", "component_models", "sites", "units")
+
+_EXPECT = {
+    "text": "text",
+    "pos": "a number > 0",
+    "num0": "a number >= 0",
+    "num": "a number",
+    "pressure": f"a pressure in bar, > 0 and <= {PRESSURE_RANGE_BAR[1]:g}",
+    "time": 'an ISO 8601 timestamp with an offset, e.g. "2026-03-02T10:00:00Z"',
+    "block": "a mapping of fields",
+    "list": "a list",
+}
+
+
+class _Check:
+    """Collects registry problems with the field path of each."""
+
+    def __init__(self, file: str, lines: dict[str, int]) -> None:
+        self.file, self.lines, self.items = file, lines, []
+
+    def add(self, path: str, value: Any, message: str) -> None:
+        line = self.lines.get(path)
+        shown = None if value is None else str(value)
+        self.items.append(Problem(self.file, line, path, shown, message))
+
+
+def load_registry(source: str | bytes | IO, name: str) -> tuple[Registry | None, list[Problem]]:
+    """Read a fleet registry from YAML text.
+
+    Parameters
+    ----------
+    source : str, bytes or file-like
+        The YAML document.
+    name : str
+        File name shown in problems.
+
+    Returns
+    -------
+    registry : Registry or None
+        The registry in canonical units [bar, rpm, h, L/min, degC, mm2/s]; None if there
+        is any problem.
+    problems : list of Problem
+        Every problem found, each with the field path and what is expected.
+    """
+    text = source if isinstance(source, str | bytes) else source.read()
+    if isinstance(text, bytes):
+        try:
+            text = text.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            return None, [
+                Problem(name, None, None, None, "registry is not UTF-8 text: save it as UTF-8")
+            ]
+    try:
+        doc = yaml.safe_load(text)
+        lines = _line_map(yaml.compose(text, Loader=yaml.SafeLoader))
+    except yaml.YAMLError as e:
+        mark = getattr(e, "problem_mark", None)
+        line = mark.line + 1 if mark else None
+        return None, [Problem(name, line, None, None, f"invalid YAML: {e}")]
+    ck = _Check(name, lines)
+    if not isinstance(doc, dict):
+        ck.add("", None, "expected a mapping with the sections " + ", ".join(SECTIONS))
+        return None, ck.items
+    for k in doc:
+        if k not in SECTIONS:
+            ck.add(str(k), None, f"unknown section `{k}`: known sections are {', '.join(SECTIONS)}")
+    sec = {s: _section(doc, s, ck) for s in SECTIONS}
+    reg = Registry(
+        oils=tuple(o for i, e in enumerate(sec["oils"]) if (o := _oil(e, f"oils[{i}]", ck))),
+        component_models=tuple(
+            m
+            for i, e in enumerate(sec["component_models"])
+            if (m := _model(e, f"component_models[{i}]", ck))
+        ),
+        sites=tuple(
+            SiteSpec(**v)
+            for i, e in enumerate(sec["sites"])
+            if (v := _fields(e, SITE, f"sites[{i}]", ck))
+        ),
+        units=tuple(u for i, e in enumerate(sec["units"]) if (u := _unit(e, f"units[{i}]", ck))),
+    )
+    # names of entries that were themselves rejected still count as known for references
+    raw = {
+        key: {str(e.get("name")) for e in sec[sect] if isinstance(e, dict)}
+        for key, sect in (("site", "sites"), ("oil", "oils"), ("model", "component_models"))
+    }
+    _check_references(reg, raw, ck)
+    return (None if ck.items else reg), ck.items
+
+
+def _line_map(node: yaml.Node | None, path: str = "", out: dict | None = None) -> dict[str, int]:
+    """Field path -> 1-based source line, from the composed YAML node tree."""
+    out = {} if out is None else out
+    if node is None:
+        return out
+    out.setdefault(path, node.start_mark.line + 1)
+    if isinstance(node, yaml.MappingNode):
+        for k, v in node.value:
+            sub = f"{path}.{k.value}" if path else str(k.value)
+            out[sub] = k.start_mark.line + 1
+            _line_map(v, sub, out)
+    elif isinstance(node, yaml.SequenceNode):
+        for i, v in enumerate(node.value):
+            _line_map(v, f"{path}[{i}]", out)
+    return out
+
+
+def _section(doc: dict, key: str, ck: _Check) -> list:
+    v = doc.get(key)
+    if v is None:
+        return []
+    if not isinstance(v, list):
+        ck.add(key, None, f"`{key}` must be a list of entries (each starting with `- `)")
+        return []
+    return v
+
+
+def _value(v: Any, kind: Any, path: str, ck: _Check) -> tuple[bool, Any]:
+    """Check one value against its kind; returns (ok, converted value)."""
+    if isinstance(kind, tuple):
+        if v in kind[1]:
+            return True, v
+        ck.add(path, v, f"expected one of {', '.join(kind[1])}")
+        return False, None
+    if kind == "text":
+        if isinstance(v, str) and v.strip():
+            return True, v.strip()
+        if isinstance(v, int) and not isinstance(v, bool):
+            return True, str(v)
+        ck.add(path, v, "expected non-empty text (quote it if it looks like a number)")
+        return False, None
+    if kind == "time":
+        return _time(v, path, ck)
+    if kind in ("block", "list"):
+        ok = isinstance(v, dict if kind == "block" else list)
+        if not ok:
+            ck.add(path, None, f"expected {_EXPECT[kind]}")
+        return ok, v
+    num = isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+    ok = num and (
+        (kind == "num")
+        or (kind == "pos" and v > 0)
+        or (kind == "num0" and v >= 0)
+        or (kind == "pressure" and PRESSURE_RANGE_BAR[0] < v <= PRESSURE_RANGE_BAR[1])
+    )
+    if not ok:
+        ck.add(path, v, f"expected {_EXPECT[kind]}")
+        return False, None
+    return True, float(v)
+
+
+def _time(v: Any, path: str, ck: _Check) -> tuple[bool, datetime | None]:
+    if isinstance(v, str):
+        try:
+            v = datetime.fromisoformat(v.strip().replace("z", "Z"))
+        except ValueError:
+            v = None
+    if isinstance(v, datetime) and v.tzinfo is not None:
+        return True, v.astimezone(UTC)
+    ck.add(path, v, f"expected {_EXPECT['time']}")
+    return False, None
+
+
+def _fields(entry: Any, schema: dict, path: str, ck: _Check) -> dict | None:
+    """Check a mapping against ``schema``; returns the converted values or None."""
+    if not isinstance(entry, dict):
+        ck.add(path, None, f"expected a mapping with the fields {', '.join(schema)}")
+        return None
+    before = len(ck.items)
+    out = {}
+    for k in entry:
+        if k not in schema:
+            ck.add(
+                f"{path}.{k}", None, f"unknown field `{k}`: known fields are {', '.join(schema)}"
+            )
+    for k, (kind, required, default) in schema.items():
+        if entry.get(k) is None:
+            if required:
+                ck.add(
+                    f"{path}.{k}", None, f"missing required field `{k}`: expected {_expect(kind)}"
+                )
+            elif default is not None:
+                out[k] = default
+            continue
+        ok, v = _value(entry[k], kind, f"{path}.{k}", ck)
+        if ok:
+            out[k] = v
+    return out if len(ck.items) == before else None
+
+
+def _expect(kind: Any) -> str:
+    return f"one of {', '.join(kind[1])}" if isinstance(kind, tuple) else _EXPECT[kind]
+
+
+def _oil(entry: Any, path: str, ck: _Check) -> OilSpec | None:
+    v = _fields(entry, OIL, path, ck)
+    if v is None:
+        return None
+    grade = "iso_vg" in v or "viscosity_index" in v
+    points = "nu40_mm2s" in v or "nu100_mm2s" in v
+    if (
+        grade == points
+        or (grade and len({"iso_vg", "viscosity_index"} & set(v)) < 2)
+        or (points and len({"nu40_mm2s", "nu100_mm2s"} & set(v)) < 2)
+    ):
+        ck.add(path, None, "give either iso_vg and viscosity_index, or nu40_mm2s and nu100_mm2s")
+        return None
+    if grade and v["iso_vg"] not in ISO_VG_GRADES:
+        ck.add(
+            f"{path}.iso_vg",
+            v["iso_vg"],
+            f"expected an ISO 3448 grade, one of {', '.join(map(str, ISO_VG_GRADES))}",
+        )
+        return None
+    if points and v["nu40_mm2s"] <= v["nu100_mm2s"]:
+        ck.add(
+            f"{path}.nu100_mm2s",
+            v["nu100_mm2s"],
+            "expected the viscosity at 100 degC to be below the one at 40 degC",
+        )
+        return None
+    return OilSpec(**v)
+
+
+def _model(entry: Any, path: str, ck: _Check) -> ComponentModelSpec | None:
+    v = _fields(entry, MODEL, path, ck)
+    if v is None:
+        return None
+    ok = True
+    if v.get("cutoff_bar") is not None and v["cutoff_bar"] >= v["relief_bar"]:
+        ck.add(
+            f"{path}.cutoff_bar",
+            v["cutoff_bar"],
+            f"expected the pressure cut-off below relief_bar ({v['relief_bar']:g} bar)",
+        )
+        ok = False
+    if v["low_side_bar"] >= v["relief_bar"]:
+        ck.add(
+            f"{path}.low_side_bar",
+            v["low_side_bar"],
+            f"expected the low-side pressure below relief_bar ({v['relief_bar']:g} bar)",
+        )
+        ok = False
+    for block, schema in (("case_drain", CASE_DRAIN), ("bearing", BEARING)):
+        if block in v:
+            sub = _fields(v.pop(block), schema, f"{path}.{block}", ck)
+            ok = ok and sub is not None and _check_block(block, sub, f"{path}.{block}", ck)
+            v.update({f"{block}_{k}": x for k, x in (sub or {}).items()})
+    return ComponentModelSpec(**v) if ok else None
+
+
+def _check_block(block: str, v: dict, path: str, ck: _Check) -> bool:
+    if block == "case_drain":
+        if ("limit_factor" in v) == ("limit_lpm" in v):
+            ck.add(path, None, "give exactly one of limit_factor (x new_lpm) or limit_lpm")
+            return False
+        if v.get("limit_factor", 2.0) <= 1.0 or v.get("limit_lpm", math.inf) <= v["new_lpm"]:
+            key = "limit_factor" if "limit_factor" in v else "limit_lpm"
+            ck.add(f"{path}.{key}", v[key], "expected a rebuild limit above the new-unit flow")
+            return False
+    elif v["fatigue_limit_kn"] >= v["dynamic_load_kn"]:
+        ck.add(
+            f"{path}.fatigue_limit_kn",
+            v["fatigue_limit_kn"],
+            "expected the fatigue load limit below the dynamic load rating",
+        )
+        return False
+    return True
+
+
+def _unit(entry: Any, path: str, ck: _Check) -> UnitSpec | None:
+    v = _fields(entry, UNIT, path, ck)
+    if v is None:
+        return None
+    comps = [
+        _fields(c, COMPONENT, f"{path}.components[{i}]", ck)
+        for i, c in enumerate(v.pop("components", None) or [])
+    ]
+    svc = [
+        _fields(s, SERVICE, f"{path}.service[{i}]", ck)
+        for i, s in enumerate(v.pop("service", None) or [])
+    ]
+    if any(c is None for c in comps) or any(s is None for s in svc):
+        return None
+    return UnitSpec(
+        **v,
+        components=tuple(ComponentSpec(**c) for c in comps),
+        service=tuple(ServiceSpec(**{"position": None, **s}) for s in svc),
+    )
+
+
+def _unique(names: list[str], what: str, path: str, ck: _Check) -> None:
+    seen: set[str] = set()
+    for i, n in enumerate(names):
+        if n in seen:
+            ck.add(
+                path.format(i), n, f"{what} `{n}` appears more than once: {what}s must be unique"
+            )
+        seen.add(n)
+
+
+def _check_references(reg: Registry, known: dict[str, set[str]], ck: _Check) -> None:
+    """Names unique; each unit's site, oil, component models and service positions exist."""
+    _unique([o.name for o in reg.oils], "oil name", "oils[{}].name", ck)
+    _unique([m.name for m in reg.component_models], "model name", "component_models[{}].name", ck)
+    _unique([s.name for s in reg.sites], "site name", "sites[{}].name", ck)
+    _unique([u.tag for u in reg.units], "unit tag", "units[{}].tag", ck)
+    for i, u in enumerate(reg.units):
+        p = f"units[{i}]"
+        for key, val in (("site", u.site), ("oil", u.oil)):
+            if val not in known[key]:
+                ck.add(f"{p}.{key}", val, f"no {key} named `{val}`: known are {_names(known[key])}")
+        _unique([c.position for c in u.components], "position", p + ".components[{}].position", ck)
+        for j, c in enumerate(u.components):
+            if c.model not in known["model"]:
+                ck.add(
+                    f"{p}.components[{j}].model",
+                    c.model,
+                    f"no component model named `{c.model}`: known are {_names(known['model'])}",
+                )
+        _check_service(u, p, ck)
+
+
+def _check_service(u: UnitSpec, p: str, ck: _Check) -> None:
+    positions = {c.position for c in u.components}
+    for j, s in enumerate(u.service):
+        q = f"{p}.service[{j}]"
+        if s.kind == "hour_meter_change":
+            if s.new_hour_meter is None:
+                ck.add(
+                    f"{q}.new_hour_meter",
+                    None,
+                    "missing required field `new_hour_meter` for an hour_meter_change: "
+                    "expected the meter reading after the change, a number >= 0",
+                )
+        elif s.new_hour_meter is not None:
+            ck.add(
+                f"{q}.new_hour_meter",
+                s.new_hour_meter,
+                "new_hour_meter is only for kind hour_meter_change: remove it",
+            )
+        if s.position is None and s.kind != "hour_meter_change":
+            ck.add(f"{q}.position", None, f"a {s.kind} needs the position of the component")
+        elif s.position is not None and s.position not in positions:
+            ck.add(
+                f"{q}.position",
+                s.position,
+                f"unit {u.tag} has no component at `{s.position}`: known are {_names(positions)}",
+            )
+
+
+def _names(names: set[str]) -> str:
+    return ", ".join(sorted(names)) or "(none)"
+
+
+# ---------------------------------------------------------------- writing
+
+
+def dump_registry(registry: Registry) -> str:
+    """YAML text of ``registry`` in the documented schema (read back equal by load_registry).
+
+    Parameters
+    ----------
+    registry : Registry
+        The registry to write.
+
+    Returns
+    -------
+    str
+        YAML text; optional fields that are unset are left out.
+    """
+    doc = {
+        "oils": [_plain(o) for o in registry.oils],
+        "component_models": [_model_plain(m) for m in registry.component_models],
+        "sites": [_plain(s) for s in registry.sites],
+        "units": [
+            {
+                **_plain(u, skip=("components", "service")),
+                "components": [_plain(c) for c in u.components],
+                "service": [_plain(s) for s in u.service],
+            }
+            for u in registry.units
+        ],
+    }
+    return yaml.safe_dump(doc, sort_keys=False, allow_unicode=True)
+
+
+def _plain(obj: Any, skip: tuple[str, ...] = ()) -> dict:
+    out = {}
+    for f in fields(obj):
+        v = getattr(obj, f.name)
+        if f.name in skip or v is None:
+            continue
+        out[f.name] = v.isoformat() if isinstance(v, datetime) else v
+    return out
+
+
+def _model_plain(m: ComponentModelSpec) -> dict:
+    flat = _plain(m)
+    out: dict[str, Any] = {
+        k: v for k, v in flat.items() if not k.startswith(("case_drain_", "bearing_"))
+    }
+    for block in ("case_drain", "bearing"):
+        sub = {k[len(block) + 1 :]: v for k, v in flat.items() if k.startswith(block + "_")}
+        if block == "case_drain" and set(sub) == {"flushing_lpm"}:
+            continue  # only the default: no case-drain data
+        if sub:
+            out[block] = sub
+    return out

@@ -1,0 +1,1 @@
+"""The damage ledger: life-model results per upload (pure; the store writes them)."""

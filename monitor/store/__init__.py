@@ -1,0 +1,1 @@
+"""Storage: schema, engine, transactions and every SQL statement (no engineering results)."""

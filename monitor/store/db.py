@@ -1,0 +1,327 @@
+"""Storage: tables, the engine factory and one transaction context.
+
+The store keeps what was uploaded and what the life models made of it; it never
+computes engineering results itself. Reads return pandas DataFrames or plain
+values, so no ORM session ever leaks into the models or the dashboard.
+
+Histogram bands are stored compactly: one row per histogram, its band edges and
+hours as little-endian float64 blobs (see :func:`pack` / :func:`unpack`).
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import numpy as np
+from sqlalchemy import (
+    Column,
+    DateTime,
+    Engine,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    LargeBinary,
+    MetaData,
+    String,
+    Table,
+    Text,
+    UniqueConstraint,
+    create_engine,
+    event,
+)
+from sqlalchemy.engine import Connection
+
+from monitor.domain.config import DEFAULT_URL, ENV_URL
+
+NAMING_CONVENTION = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+metadata = MetaData(naming_convention=NAMING_CONVENTION)
+TS = DateTime(timezone=True)
+
+site = Table(
+    "site",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("name", String(120), nullable=False, unique=True),
+)
+
+oil = Table(
+    "oil",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("name", String(120), nullable=False, unique=True),
+    Column("iso_vg", Float),
+    Column("viscosity_index", Float),
+    Column("nu40_mm2s", Float),
+    Column("nu100_mm2s", Float),
+)
+
+component_model = Table(
+    "component_model",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("name", String(120), nullable=False, unique=True),
+    Column("kind", String(16), nullable=False),
+    Column("displacement_cm3", Float, nullable=False),
+    Column("rated_dp_bar", Float, nullable=False),
+    Column("rated_speed_rpm", Float, nullable=False),
+    Column("rated_l10_h", Float, nullable=False),
+    Column("life_exponent", Float, nullable=False),
+    Column("low_side_bar", Float, nullable=False),
+    Column("relief_bar", Float, nullable=False),
+    Column("cutoff_bar", Float),
+    Column("case_drain_test_dp_bar", Float),
+    Column("case_drain_test_temp_c", Float),
+    Column("case_drain_new_lpm", Float),
+    Column("case_drain_limit_factor", Float),
+    Column("case_drain_limit_lpm", Float),
+    Column("case_drain_flushing_lpm", Float, nullable=False),
+    Column("bearing_type", String(16)),
+    Column("bearing_pitch_diameter_mm", Float),
+    Column("bearing_dynamic_load_kn", Float),
+    Column("bearing_fatigue_limit_kn", Float),
+    Column("bearing_load_at_rated_kn", Float),
+)
+
+unit = Table(
+    "unit",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("tag", String(80), nullable=False, unique=True),
+    Column("site_id", ForeignKey("site.id"), nullable=False),
+    Column("machine_type", String(120), nullable=False),
+    Column("oil_id", ForeignKey("oil.id"), nullable=False),
+)
+
+component = Table(
+    "component",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("unit_id", ForeignKey("unit.id", ondelete="CASCADE"), nullable=False),
+    Column("position", String(40), nullable=False),
+    Column("model_id", ForeignKey("component_model.id"), nullable=False),
+    Column("serial", String(80)),
+    UniqueConstraint("unit_id", "position", name="uq_component_unit_position"),
+)
+
+service_event = Table(
+    "service_event",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("unit_id", ForeignKey("unit.id", ondelete="CASCADE"), nullable=False),
+    Column("component_id", ForeignKey("component.id", ondelete="CASCADE")),
+    Column("kind", String(24), nullable=False),
+    Column("at", TS, nullable=False),
+    Column("hour_meter", Float, nullable=False),
+    Column("new_hour_meter", Float),
+    Column("note", Text),
+    UniqueConstraint("unit_id", "component_id", "kind", "at", name="uq_service_event_key"),
+    # The status read's "last rebuild at or before" per component: one seek each
+    # (the unique key leads with unit_id, so without this it scans every event).
+    Index("ix_service_event_component_kind_at", "component_id", "kind", "at"),
+)
+
+upload_file = Table(
+    "upload_file",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("sha256", String(64), nullable=False, unique=True),
+    Column("name", String(255), nullable=False),
+    Column("received_at", TS, nullable=False),
+    Column("n_histograms", Integer, nullable=False),
+    Column("n_readings", Integer, nullable=False),
+)
+
+upload = Table(
+    "upload",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("file_id", ForeignKey("upload_file.id", ondelete="CASCADE"), nullable=False),
+    Column("unit_id", ForeignKey("unit.id", ondelete="CASCADE"), nullable=False),
+    Column("period_start", TS, nullable=False),
+    Column("period_end", TS, nullable=False),
+    Column("hour_meter_start", Float, nullable=False),
+    Column("hour_meter_end", Float, nullable=False),
+    Index("ix_upload_unit_period", "unit_id", "period_start"),
+)
+
+histogram = Table(
+    "histogram",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("upload_id", ForeignKey("upload.id", ondelete="CASCADE"), nullable=False),
+    Column("component_id", ForeignKey("component.id", ondelete="CASCADE"), nullable=False),
+    Column("quantity", String(16), nullable=False),
+    Column("period_start", TS, nullable=False),
+    Column("period_end", TS, nullable=False),
+    Column("n_pressure", Integer, nullable=False),
+    Column("n_speed", Integer, nullable=False),
+    Column("pressure_bands", LargeBinary, nullable=False),
+    Column("speed_bands", LargeBinary),
+    Column("hours", LargeBinary, nullable=False),
+    Column("total_hours", Float, nullable=False),
+    Column("mean_speed_rpm", Float),
+    Column("content_sha256", String(64), nullable=False),
+    Index("ix_histogram_component_period", "component_id", "quantity", "period_start"),
+)
+
+reading = Table(
+    "reading",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("file_id", ForeignKey("upload_file.id", ondelete="CASCADE"), nullable=False),
+    Column("component_id", ForeignKey("component.id", ondelete="CASCADE"), nullable=False),
+    Column("taken_at", TS, nullable=False),
+    Column("hour_meter", Float, nullable=False),
+    Column("case_drain_lpm", Float),
+    Column("test_pressure_bar", Float),
+    Column("oil_temp_c", Float),
+    Column("iso4406", String(16)),
+    UniqueConstraint("component_id", "taken_at", name="uq_reading_component_taken"),
+    # Covering index of the status read: a rank scans it in (component, time) order and
+    # never visits the table.
+    Index(
+        "ix_reading_component_wear",
+        "component_id",
+        "taken_at",
+        "hour_meter",
+        "case_drain_lpm",
+        "test_pressure_bar",
+        "oil_temp_c",
+    ),
+)
+
+# One row per upload and component: what the life models made of its histogram(s).
+# The cum_* columns are running totals per component in period order, so a status
+# query needs a few index seeks per component instead of a scan of the ledger.
+ledger = Table(
+    "ledger",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("upload_id", ForeignKey("upload.id", ondelete="CASCADE"), nullable=False),
+    Column("component_id", ForeignKey("component.id", ondelete="CASCADE"), nullable=False),
+    Column("period_end", TS, nullable=False),
+    Column("hour_meter_end", Float, nullable=False),
+    Column("meter_hours", Float, nullable=False),
+    Column("hours", Float, nullable=False),
+    Column("damage", Float, nullable=False),
+    Column("relief_hours", Float, nullable=False),
+    Column("cutoff_hours", Float, nullable=False),
+    Column("relief_heat_kwh", Float, nullable=False),
+    Column("cum_meter_hours", Float, nullable=False, default=0.0),
+    Column("cum_hours", Float, nullable=False, default=0.0),
+    Column("cum_damage", Float, nullable=False, default=0.0),
+    Column("cum_relief_hours", Float, nullable=False, default=0.0),
+    Column("cum_cutoff_hours", Float, nullable=False, default=0.0),
+    Column("cum_relief_heat_kwh", Float, nullable=False, default=0.0),
+    UniqueConstraint("upload_id", "component_id", name="uq_ledger_upload_component"),
+    # The trailing columns are the status read's tie-breaks (latest row at or before a
+    # bound), so its ORDER BY ... LIMIT 1 is one index seek without a sort.
+    Index("ix_ledger_component_period", "component_id", "period_end", "upload_id"),
+    Index("ix_ledger_component_cum_hours", "component_id", "cum_hours", "period_end", "upload_id"),
+)
+
+setting = Table(
+    "setting",
+    metadata,
+    Column("key", String(80), primary_key=True),
+    Column("value", Text, nullable=False),
+)
+
+registry_document = Table(
+    "registry_document",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("sha256", String(64), nullable=False),
+    Column("name", String(255), nullable=False),
+    Column("text", Text, nullable=False),
+    Column("imported_at", TS, nullable=False),
+)
+
+
+def resolve_url(url: str | None = None) -> str:
+    """The database URL: the argument, else ``$DRIVESPAN_DB``, else ``sqlite:///drivespan.db``.
+
+    A plain file path (no ``scheme://``) is taken as a SQLite file.
+    """
+    url = url or os.environ.get(ENV_URL) or DEFAULT_URL
+    if "://" not in url:
+        url = f"sqlite:///{Path(url).expanduser().resolve()}"
+    return url
+
+
+def make_engine(url: str | None = None) -> Engine:
+    """Engine for ``url``; SQLite gets WAL, foreign keys and a busy timeout."""
+    url = resolve_url(url)
+    if url.startswith("postgres://"):
+        url = "postgresql+psycopg://" + url[len("postgres://") :]
+    elif url.startswith("postgresql://"):
+        url = "postgresql+psycopg://" + url[len("postgresql://") :]
+    if url.startswith("sqlite"):
+        engine = create_engine(url, connect_args={"timeout": 30})
+        event.listen(engine, "connect", _sqlite_pragmas)
+        return engine
+    return create_engine(url, pool_pre_ping=True)
+
+
+def _sqlite_pragmas(dbapi_conn, _record) -> None:  # noqa: ANN001 - DBAPI hook
+    cur = dbapi_conn.cursor()
+    cur.execute("PRAGMA journal_mode=WAL")
+    cur.execute("PRAGMA foreign_keys=ON")
+    cur.execute("PRAGMA busy_timeout=30000")
+    cur.execute("PRAGMA synchronous=NORMAL")
+    cur.close()
+
+
+@contextmanager
+def transaction(engine: Engine) -> Iterator[Connection]:
+    """One database transaction: committed on success, rolled back on any error."""
+    with engine.begin() as conn:
+        yield conn
+
+
+def migrations_dir() -> Path:
+    """Folder of the Alembic environment: ``migrations/`` of the source tree, installed
+    as the package ``monitor.migrations``."""
+    from importlib.resources import files
+
+    return Path(str(files("monitor.migrations")))
+
+
+def alembic_config(url: str):  # noqa: ANN201 - alembic Config
+    from alembic.config import Config
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(migrations_dir()))
+    cfg.set_main_option("sqlalchemy.url", url.replace("%", "%%"))
+    return cfg
+
+
+def upgrade(engine: Engine) -> None:
+    """Create or upgrade the schema to the newest migration (``alembic upgrade head``)."""
+    from alembic import command
+
+    cfg = alembic_config(engine.url.render_as_string(hide_password=False))
+    with engine.begin() as conn:
+        cfg.attributes["connection"] = conn
+        command.upgrade(cfg, "head")
+
+
+def pack(values: np.ndarray) -> bytes:
+    """Array -> little-endian float64 bytes (row-major)."""
+    return np.ascontiguousarray(values, dtype="<f8").tobytes()
+
+
+def unpack(blob: bytes, shape: tuple[int, ...] | None = None) -> np.ndarray:
+    """Bytes written by :func:`pack` -> float64 array, reshaped when ``shape`` is given."""
+    arr = np.frombuffer(blob, dtype="<f8")
+    return arr.reshape(shape) if shape is not None else arr

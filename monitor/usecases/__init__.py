@@ -1,0 +1,63 @@
+"""Use cases: one function per thing a user does; transactions begin here.
+
+The command line and the dashboard call these (directly or through the documented
+package API in :mod:`monitor`). Modules: :mod:`~monitor.usecases.common` (results,
+errors, opening a store), :mod:`~monitor.usecases.registry`,
+:mod:`~monitor.usecases.telemetry`, :mod:`~monitor.usecases.settings`,
+:mod:`~monitor.usecases.status`, :mod:`~monitor.usecases.events`,
+:mod:`~monitor.usecases.plan`, :mod:`~monitor.usecases.demo`.
+
+The public names are gathered here and loaded on first use (PEP 562), so that a command
+that only prints its help does not import the database layer or pandas.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+_WHERE = {
+    "ACCEPTED": "common",
+    "DUPLICATE": "common",
+    "REJECTED": "common",
+    "VALID": "common",
+    "DomainError": "common",
+    "FileResult": "common",
+    "init_db": "common",
+    "SERVICE_KINDS": "events",
+    "add_service_event": "events",
+    "REGISTRY_SUFFIXES": "registry",
+    "has_registry": "registry",
+    "import_registry": "registry",
+    "show_registry": "registry",
+    "DEFAULT_SETTINGS": "settings",
+    "get_settings": "settings",
+    "save_settings": "settings",
+    "ComponentDetail": "status",
+    "UnitReport": "status",
+    "RANK_COLUMNS": "status",
+    "fleet_status": "status",
+    "plain_records": "status",
+    "plain_value": "status",
+    "rank_records": "status",
+    "unit_report": "status",
+    "TELEMETRY_SUFFIXES": "telemetry",
+    "expand_paths": "telemetry",
+    "ingest_bytes": "telemetry",
+    "ingest_paths": "telemetry",
+    "recompute": "telemetry",
+    "upload": "telemetry",
+}
+
+__all__ = sorted(_WHERE)
+
+
+def __getattr__(name: str) -> object:
+    if name in _WHERE:
+        value = getattr(importlib.import_module(f"monitor.usecases.{_WHERE[name]}"), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_WHERE))

@@ -1,0 +1,93 @@
+"""Use cases of service events: rebuilds, replacements and hour-meter changes."""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime
+
+from monitor.store import db, queries
+from monitor.store.db import Engine
+from monitor.usecases.common import DomainError
+from monitor.usecases.status import _unknown_unit
+
+SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
+
+
+def add_service_event(
+    engine: Engine,
+    tag: str,
+    *,
+    kind: str,
+    at: datetime,
+    hour_meter: float,
+    position: str | None = None,
+    new_hour_meter: float | None = None,
+    note: str | None = None,
+) -> dict:
+    """Record a rebuild, replacement or hour-meter change of a unit; return it as a dict.
+
+    A rebuild or replacement needs the component's ``position``; an hour-meter change
+    is of the whole unit and needs ``new_hour_meter``. The ledger is not rewritten:
+    its damage values do not depend on rebuilds; the status reads only the rows after
+    the last rebuild. Raises DomainError with what to correct.
+    """
+    event = _checked_event(tag, kind, at, hour_meter, position, new_hour_meter)
+    with db.transaction(engine) as conn:
+        unit = queries.unit_id(conn, tag)
+        if unit is None:
+            raise _unknown_unit(conn, tag)
+        comp_id = None
+        if position is not None:
+            comp_id = _component_id(conn, unit, tag, position)
+        if queries.service_event_exists(conn, unit, kind, event["at"], comp_id):
+            raise DomainError(
+                f"a {kind} of {tag} {position or ''} at "
+                f"{event['at'].isoformat()} is already recorded"
+            )
+        queries.insert_service_event(
+            conn,
+            unit_id=unit,
+            component_id=comp_id,
+            note=note,
+            kind=kind,
+            at=event["at"],
+            hour_meter=hour_meter,
+            new_hour_meter=new_hour_meter,
+        )
+    return {"unit": tag, "position": position, "note": note, **event}
+
+
+def _checked_event(tag, kind, at, hour_meter, position, new_hour_meter) -> dict:  # noqa: ANN001
+    if kind not in SERVICE_KINDS:
+        raise DomainError(f"kind {kind!r} is not known: use one of {', '.join(SERVICE_KINDS)}")
+    if at.tzinfo is None:
+        raise DomainError("the service time needs a UTC offset, e.g. 2026-11-20T08:00:00Z")
+    if not (hour_meter >= 0):
+        raise DomainError(f"hour meter must be a reading >= 0 h, got {hour_meter!r}")
+    if kind == "hour_meter_change":
+        if position is not None:
+            raise DomainError("an hour_meter_change is of the whole unit: leave out --position")
+        if new_hour_meter is None or not (new_hour_meter >= 0):
+            raise DomainError(
+                "an hour_meter_change needs the new meter's reading (--new-hour-meter H, >= 0)"
+            )
+    else:
+        if position is None:
+            raise DomainError(f"a {kind} is of one component: give its --position")
+        if new_hour_meter is not None:
+            raise DomainError("--new-hour-meter applies only to kind hour_meter_change")
+    return {
+        "kind": kind,
+        "at": at.astimezone(UTC),
+        "hour_meter": float(hour_meter),
+        "new_hour_meter": new_hour_meter,
+    }
+
+
+def _component_id(conn, unit_id: int, tag: str, position: str) -> int:  # noqa: ANN001
+    rows = queries.component_positions(conn, unit_id)
+    if position not in rows:
+        raise DomainError(
+            f"unit {tag} has no component at position {position!r} "
+            f"(registered positions: {', '.join(sorted(rows)) or 'none'})"
+        )
+    return rows[position]

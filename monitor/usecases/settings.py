@@ -1,0 +1,131 @@
+"""Use cases of the status settings: read, validate and store them."""
+
+from __future__ import annotations
+
+import copy
+
+from monitor.store import db, queries
+from monitor.store.db import Engine
+from monitor.usecases.common import DomainError
+
+DEFAULT_SETTINGS: dict = {
+    "reliability_pct": 90.0,
+    "rate_window_h": 500.0,
+    "stale_days": 14,
+    "status_limits": {"overdue_h": 0.0, "due_h": 250.0, "plan_h": 1000.0},
+    "utilisation_days": 30,
+    "case_drain_step_factor": 1.5,
+    "heavy_relief_fraction": 0.01,
+    "min_wear_readings": 3,
+}
+"""Status settings used where none are stored (``save_settings`` stores overrides)."""
+
+
+def get_settings(engine: Engine) -> dict:
+    """Status settings: :data:`DEFAULT_SETTINGS` overlaid with the stored values."""
+    with engine.connect() as conn:
+        stored = queries.get_settings(conn)
+    out = copy.deepcopy(DEFAULT_SETTINGS)
+    for key, value in stored.items():
+        if key == "status_limits" and isinstance(value, dict):
+            out[key] = {**out[key], **value}
+        elif key in out:
+            out[key] = value
+    return out
+
+
+def save_settings(engine: Engine, values: dict) -> dict:
+    """Validate and store status settings; return the settings now in force.
+
+    Raises DomainError naming the field if a value is out of range.
+    """
+    merged = {**get_settings(engine), **values}
+    if "status_limits" in values:
+        if not isinstance(values["status_limits"], dict):
+            raise DomainError(
+                "status_limits must give overdue_h, due_h and plan_h in hours, "
+                f"got {values['status_limits']!r}"
+            )
+        merged["status_limits"] = {
+            **get_settings(engine)["status_limits"],
+            **values["status_limits"],
+        }
+    unknown = sorted(set(values) - set(DEFAULT_SETTINGS))
+    if unknown:
+        raise DomainError(
+            f"unknown setting(s) {', '.join(unknown)}: known are {', '.join(DEFAULT_SETTINGS)}"
+        )
+    params = _status_params(merged)  # raises DomainError on a bad value
+    checked = {k: getattr(params, k) for k in values if k != "status_limits"}
+    if "status_limits" in values:
+        checked["status_limits"] = dict(params.status_limits)
+    with db.transaction(engine) as conn:
+        queries.put_settings(conn, checked)  # numbers stored as numbers, not as text
+    return get_settings(engine)
+
+
+def _positive(settings: dict, key: str, what: str) -> float:
+    if isinstance(settings[key], bool):
+        raise DomainError(f"{key} must be a number ({what}), got {settings[key]!r}")
+    try:
+        v = float(settings[key])
+    except (TypeError, ValueError):
+        raise DomainError(f"{key} must be a number ({what}), got {settings[key]!r}") from None
+    if not (v > 0) or v != v or v == float("inf"):
+        raise DomainError(f"{key} must be a positive number ({what}), got {settings[key]!r}")
+    return v
+
+
+def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
+    from monitor import fleet
+    from monitor.models import bearings
+
+    lo, hi = bearings.RELIABILITY_RANGE_PCT
+    r = _positive(settings, "reliability_pct", "planning reliability in %")
+    if not (lo <= r <= hi):
+        raise DomainError(
+            f"reliability_pct must be between {lo:g} and {hi:g} % "
+            f"(ISO 281 gives no factor a1 outside that range), got {r:g}"
+        )
+    limits = settings["status_limits"]
+    if not isinstance(limits, dict):
+        raise DomainError(
+            f"status_limits must give overdue_h, due_h and plan_h in hours, got {limits!r}"
+        )
+    try:
+        lim = {k: float(limits[k]) for k in ("overdue_h", "due_h", "plan_h")}
+    except (KeyError, TypeError, ValueError):
+        raise DomainError(
+            f"status_limits must give numbers overdue_h, due_h and plan_h in hours, got {limits!r}"
+        ) from None
+    if not (lim["overdue_h"] < lim["due_h"] < lim["plan_h"]):
+        raise DomainError(f"status_limits must be ordered overdue_h < due_h < plan_h, got {lim}")
+    step = _positive(settings, "case_drain_step_factor", "a multiple of the fitted level")
+    frac = _positive(settings, "heavy_relief_fraction", "a share of operating hours")
+    n = settings["min_wear_readings"]
+    if not isinstance(n, int) or isinstance(n, bool) or n < 3:
+        raise DomainError(
+            f"min_wear_readings must be a whole number >= 3 (a Theil-Sen "
+            f"trend needs three readings), got {n!r}"
+        )
+    if step <= 1 or frac >= 1:
+        raise DomainError("case_drain_step_factor must be > 1 and heavy_relief_fraction < 1")
+    return fleet.StatusParams(
+        reliability_pct=r,
+        rate_window_h=_positive(settings, "rate_window_h", "operating hours"),
+        utilisation_days=_positive(settings, "utilisation_days", "calendar days"),
+        stale_days=_positive(settings, "stale_days", "calendar days"),
+        status_limits=lim,
+        case_drain_step_factor=step,
+        heavy_relief_fraction=frac,
+        min_wear_readings=n,
+    )
+
+
+def _params_for(engine: Engine, reliability_pct: float | None, rate_window_h: float | None):  # noqa: ANN202
+    settings = get_settings(engine)
+    if reliability_pct is not None:
+        settings["reliability_pct"] = reliability_pct
+    if rate_window_h is not None:
+        settings["rate_window_h"] = rate_window_h
+    return _status_params(settings)
