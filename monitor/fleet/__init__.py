@@ -1,0 +1,1 @@
+"""Fleet-level analyses over component lives."""

@@ -1,0 +1,1 @@
+"""Life and reliability models: numpy/scipy only, no I/O."""
