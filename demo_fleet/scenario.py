@@ -22,7 +22,7 @@ OIL_NU40_MM2S = 46.0
 OIL_NU100_MM2S = 6.7604
 """Kinematic viscosity at 100 degC [mm2/s] of VG 46 with VI 100.
 
-Computed from ASTM D2270 for VI 100 (value listed in the project's REFERENCES.md, §4).
+Computed from ASTM D2270 for VI 100 (ASTM D2270-10, computed).
 """
 
 BAND_WIDTH_BAR = 25.0

@@ -1,4 +1,5 @@
-"""Tests of monitor.bearings against ISO 281:2007 check values (shared/REFERENCES.md §1)."""
+"""Tests of monitor.bearings against ISO 281:2007 check values (ISO 281:2007: basic rating life,
+reliability factor a1 table, rated viscosity, aISO)."""
 
 import numpy as np
 import pytest

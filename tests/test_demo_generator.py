@@ -142,7 +142,8 @@ def _bearing_left_h(hist, registry, tag, position, reads) -> float:
 
 def _wear_left_h(hist, reads, registry, tag, position) -> tuple[float, float, float]:
     """(remaining wear hours, fitted level now, limit) from a Theil-Sen line through the
-    normalised readings since the last rebuild (laminar law, REFERENCES.md section 6)."""
+    normalised readings since the last rebuild (laminar law: F. M. White, Fluid Mechanics, 7th ed.,
+    plane Poiseuille flow)."""
     m = _model_of(registry, tag, position)
     cd = m["case_drain"]
     since = _last_service(registry, tag, position)
@@ -347,7 +348,8 @@ def test_stalling_loader_sits_on_its_relief_and_dumps_most_heat(frames, fleet):
             sel = mid >= 0.95 * m["relief_bar"]
             speed = g.mean_speed_rpm[sel].fillna(m["rated_speed_rpm"])
             flow_lpm = m["displacement_cm3"] * speed / 1000.0
-            # P = Q dp / 600 kW (REFERENCES.md section 5, hydraulics handbooks)
+            # P = Q dp / 600 kW (hydraulics handbooks, e.g. Exner et al., Hydraulics: Basic
+            # Principles)
             kw = flow_lpm * (mid[sel] - m["low_side_bar"]) / 600.0
             heat[unit["tag"]] = heat.get(unit["tag"], 0.0) + float((g.hours[sel] * kw).sum())
     assert max(heat, key=heat.get) == tag
@@ -454,14 +456,18 @@ def test_case_drain_readings_follow_the_laminar_law(frames):
 
 @pytest.mark.parametrize(
     ("temp_c", "expected"),
-    [(60.0, 20.562), (80.0, 11.050), (20.0, 134.49)],  # REFERENCES.md section 4 (computed)
+    [
+        (60.0, 20.562),
+        (80.0, 11.050),
+        (20.0, 134.49),
+    ],  # ASTM D341 line through ISO VG 46 / VI 100 (computed from ASTM D341-20 and D2270)
 )
 def test_walther_line_of_the_fleet_oil(temp_c, expected):
     assert walther_viscosity(temp_c) == pytest.approx(expected, rel=5e-3)
 
 
 def test_walther_line_two_point_check():
-    # ASTM D341 check, REFERENCES.md section 4: 404 @ 40 C, 28 @ 100 C -> 132.126 @ 60 C
+    # ASTM D341-20 (Walther equation) check, computed: 404 @ 40 C, 28 @ 100 C -> 132.126 @ 60 C
     assert walther_viscosity(60.0, 404.0, 28.0) == pytest.approx(132.126, rel=1e-3)
 
 

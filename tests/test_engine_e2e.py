@@ -144,7 +144,7 @@ BEARING_RIGHT = (1 - CONSUMED_RIGHT) / RATE_RIGHT  # about 25 894 h
 LIMIT = 2.0 * 1.3  # limit_factor * new_lpm = 2.6 L/min
 WEAR_LEFT = (LIMIT - 2.0) / 0.001  # 600 h
 # Right at 200 bar, 60 degC. The oil line runs through (40 degC, 46) and (100 degC,
-# 6.7604 mm2/s): nu60 = 20.562 mm2/s (shared/REFERENCES.md section 4, ASTM D341, computed
+# 6.7604 mm2/s): nu60 = 20.562 mm2/s (ASTM D341-20, Walther equation, computed
 # +-0.5 %; hence the 2e-3 tolerance). Factor k = 1.25 * 20.562 / 46.
 K_RIGHT = 1.25 * 20.562 / 46
 SLOPE_RIGHT = K_RIGHT * 0.02 / 200  # Q - 0.2 = 1.0, 1.02, 1.04

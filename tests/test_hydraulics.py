@@ -1,4 +1,5 @@
-"""Tests of monitor.hydraulics against handbook check values (shared/REFERENCES.md §5)."""
+"""Tests of monitor.hydraulics against handbook check values (hydraulics handbooks, e.g. Exner et
+al., Hydraulics: Basic Principles and Components)."""
 
 import math
 

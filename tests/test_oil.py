@@ -1,4 +1,5 @@
-"""Tests of monitor.oil against published check values (shared/REFERENCES.md §3, §4)."""
+"""Tests of monitor.oil against published check values (ISO 4406:2021 scale-number table; ISO
+3448:1992 grades; ASTM D341-20 and ASTM D2270-10 with their worked examples)."""
 
 import numpy as np
 import pytest

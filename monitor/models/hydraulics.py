@@ -49,7 +49,9 @@ def pump_flow_lpm(
 
     References
     ----------
-    Fluid-power handbooks, pump formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, pump formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("volumetric_efficiency", volumetric_efficiency)
     return np.asarray(displacement_cm3, float) * np.asarray(speed_rpm, float) * eta / 1000.0
@@ -82,7 +84,9 @@ def pump_torque_nm(
 
     References
     ----------
-    Fluid-power handbooks, pump formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, pump formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("mechanical_efficiency", mechanical_efficiency)
     return np.asarray(displacement_cm3, float) * np.asarray(dp_bar, float) / (20.0 * math.pi * eta)
@@ -113,7 +117,9 @@ def pump_input_power_kw(
 
     References
     ----------
-    Fluid-power handbooks, pump formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, pump formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("total_efficiency", total_efficiency)
     return np.asarray(flow_lpm, float) * np.asarray(dp_bar, float) / (600.0 * eta)
@@ -141,7 +147,8 @@ def throttle_power_kw(flow_lpm: float | np.ndarray, dp_bar: float | np.ndarray) 
 
     References
     ----------
-    Fluid-power handbooks (shared/REFERENCES.md §5).
+    Fluid-power handbooks: H. Exner et al., Hydraulics: Basic Principles and Components, Bosch
+    Rexroth training series, vol. 1 (pump and motor formulas; chapter from memory).
     """
     return np.asarray(flow_lpm, float) * np.asarray(dp_bar, float) / 600.0
 
@@ -167,7 +174,8 @@ def throttle_power_hp(flow_gpm: float | np.ndarray, dp_psi: float | np.ndarray) 
 
     References
     ----------
-    Fluid-power handbooks (shared/REFERENCES.md §5).
+    Fluid-power handbooks: H. Exner et al., Hydraulics: Basic Principles and Components, Bosch
+    Rexroth training series, vol. 1 (pump and motor formulas; chapter from memory).
     """
     return np.asarray(flow_gpm, float) * np.asarray(dp_psi, float) * HP_PER_GPM_PSI
 
@@ -199,7 +207,9 @@ def motor_speed_rpm(
 
     References
     ----------
-    Fluid-power handbooks, motor formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, motor formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("volumetric_efficiency", volumetric_efficiency)
     with np.errstate(divide="ignore"):
@@ -233,7 +243,9 @@ def motor_torque_nm(
 
     References
     ----------
-    Fluid-power handbooks, motor formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, motor formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("mechanical_efficiency", mechanical_efficiency)
     return np.asarray(displacement_cm3, float) * np.asarray(dp_bar, float) * eta / (20.0 * math.pi)
@@ -264,7 +276,9 @@ def motor_output_power_kw(
 
     References
     ----------
-    Fluid-power handbooks, motor formulas (shared/REFERENCES.md §5).
+    Fluid-power handbooks, motor formulas: H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     eta = _efficiency("total_efficiency", total_efficiency)
     return np.asarray(flow_lpm, float) * np.asarray(dp_bar, float) * eta / 600.0

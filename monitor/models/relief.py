@@ -147,7 +147,9 @@ def relief_heat_kwh(
 
     References
     ----------
-    Fluid-power handbooks, relief power loss (shared/REFERENCES.md §5); design brief.
+    Fluid-power handbooks, power lost across a relief P = Q dp / 600: H. Exner et al., Hydraulics:
+    Basic Principles and Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas;
+    chapter from memory); design brief.
     """
     h = _batch(hours)
     relief = _setting("relief_bar", relief_bar)
@@ -202,7 +204,9 @@ def relief_summary(
 
     References
     ----------
-    Design brief, "Life model v1" (relief); shared/REFERENCES.md §5.
+    Design brief, "Life model v1" (relief); H. Exner et al., Hydraulics: Basic Principles and
+    Components, Bosch Rexroth training series, vol. 1 (pump and motor formulas; chapter from
+    memory).
     """
     kw = dict(fraction=fraction, band_pressure=band_pressure)
     relief_h = hours_at_or_above_h(

@@ -64,7 +64,8 @@ def band_pressure_bar(
 
     References
     ----------
-    Design brief, "Life model v1"; shared/REFERENCES.md §7.
+    Design brief, "Life model v1"; the life law follows from ISO 281:2007, Eq. for the basic rating
+    life, with bearing load proportional to pressure.
     """
     _check_choice(band_pressure)
     low = np.asarray(pressure_low_bar, dtype=float)
@@ -145,7 +146,7 @@ def band_life_h(
 
     References
     ----------
-    ISO 281:2007, Eq. (1) with load proportional to pressure (shared/REFERENCES.md §7).
+    ISO 281:2007, basic rating life L10 = (C/P)^p, with load proportional to pressure.
     """
     _check_rating(rated_life_h, rated_dp_bar, rated_speed_rpm, life_exponent)
     dp = np.asarray(dp_bar, dtype=float)
@@ -429,7 +430,8 @@ def equivalent_pressure_bar(
 
     References
     ----------
-    ISO 281:2007, clause on variable load (mean equivalent load); shared/REFERENCES.md §2.
+    ISO 281:2007, clause on variable load (mean equivalent load); T. A. Harris and M. N. Kotzalas,
+    Rolling Bearing Analysis, 5th ed., CRC 2007 (Palmgren-Miner for bearings; chapter from memory).
     """
     two_d = speed_low_rpm is not None or speed_high_rpm is not None
     h, single = _hours_batch(hours, 3 if two_d else 2)

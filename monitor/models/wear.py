@@ -99,7 +99,8 @@ def normalise_case_drain_lpm(
 
     References
     ----------
-    Laminar flow between parallel plates (fluid-mechanics texts, shared/REFERENCES.md
+    Laminar flow between parallel plates (F. M. White, Fluid Mechanics, 7th ed., McGraw-Hill 2011,
+    plane Poiseuille flow between parallel plates (section from memory);
     §6); ASTM D341-20 for nu(T); design brief, "Life model v1".
     """
     q = np.asarray(case_drain_lpm, dtype=float) - float(flushing_lpm)
@@ -137,7 +138,8 @@ def clearance_ratio(leakage_ratio: float | np.ndarray) -> np.ndarray:
 
     References
     ----------
-    Laminar flow between parallel plates (shared/REFERENCES.md §6).
+    Laminar flow between parallel plates (F. M. White, Fluid Mechanics, 7th ed., McGraw-Hill 2011,
+    plane Poiseuille flow between parallel plates (section from memory)).
     """
     r = np.asarray(leakage_ratio, dtype=float)
     with np.errstate(invalid="ignore"):

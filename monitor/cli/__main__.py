@@ -1,0 +1,5 @@
+"""``python -m monitor.cli``: the ``drivespan`` command."""
+
+from monitor.cli import main
+
+main()
