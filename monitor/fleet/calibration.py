@@ -25,14 +25,12 @@ import math
 import numpy as np
 import pandas as pd
 
+from monitor.domain.vocabulary import MISSING_REASON, SERVICE_REASONS
 from monitor.models.weibull import fit_weibull
 
-REASONS = ("failure", "wear_limit", "preventive", "other")
+REASONS = SERVICE_REASONS
 """Why a life ended: bearing or rotating-group failure found, case-drain wear limit
 reached, taken out while still serviceable, anything else."""
-
-MISSING_REASON = "other"
-"""Reason assumed for an ended life recorded without one."""
 
 MODES = {"bearing": ("consumed_fraction", "failure"), "wear_limit": ("operating_h", "wear_limit")}
 """Fitted modes: mode -> (basis column, reason that counts as a failure)."""
