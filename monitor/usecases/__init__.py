@@ -22,6 +22,8 @@ _WHERE = {
     "calibrate": "calibration",
     "calibration_records": "calibration",
     "CALIBRATION_COLUMNS": "calibration",
+    "CALIBRATION_MODES": "calibration",
+    "probability_plot": "calibration",
     "factors_in_force": "calibration",
     "lives": "calibration",
     "proposed_change": "calibration",

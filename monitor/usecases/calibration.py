@@ -29,6 +29,7 @@ calibration_records = cal.table_records
 """Rows of a :func:`calibrate` table as plain dicts (NaN as None), ready for JSON."""
 
 CALIBRATION_COLUMNS = cal.CALIBRATION_COLUMNS
+CALIBRATION_MODES = tuple(cal.MODES)
 
 DEFAULT_PROPOSER = "drivespan calibrate"
 """Recorded as ``proposed_by`` when the caller names no one."""
@@ -105,6 +106,25 @@ def calibrate(
             note = table.at[i, "note"]
             table.at[i, "note"] = f"{note}; {extra}" if note else extra
     return table
+
+
+def probability_plot(
+    engine: Engine,
+    model: str,
+    mode: str = cal.FACTOR_MODE,
+    site: str | None = None,
+    confidence: float = cal.DEFAULT_CONFIDENCE,
+) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Points and fitted line with bounds of ``model``'s Weibull probability plot.
+
+    See :func:`monitor.fleet.calibration.probability_frames`.
+    """
+    if mode not in cal.MODES:
+        raise DomainError(f"mode must be one of {', '.join(cal.MODES)}, got {mode!r}")
+    try:
+        return cal.probability_frames(lives(engine, model, site), mode, confidence)
+    except ValueError as exc:
+        raise DomainError(str(exc)) from None
 
 
 def proposed_change(engine: Engine, model: str, confidence: float = cal.DEFAULT_CONFIDENCE) -> dict:
