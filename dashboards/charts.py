@@ -461,3 +461,65 @@ def capacity_figure(capacity: pd.DataFrame, site: str) -> go.Figure:
         _week_axis(fig, pd.Timestamp(rows["week_start"].iloc[0]).date(), weeks_n)
     return _style(fig, f"Shop capacity use — {site}", "Week starting [date]",
                   "Rebuilds per week [count]", height=340)  # fmt: skip
+
+
+# --- calibration ------------------------------------------------------------------------
+
+WEIBULL_TICKS = (0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 0.7, 0.9, 0.99)
+"""Fractions failed labelled on the probability axis [-]."""
+
+
+def weibull_scale(unreliability: Iterable[float]) -> np.ndarray:
+    """The Weibull probability axis: ln(-ln(1 - F)) of fractions failed F [-]."""
+    f = np.asarray(list(unreliability), dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.log(-np.log1p(-f))
+
+
+def weibull_plot_figure(
+    points: pd.DataFrame,
+    line: pd.DataFrame,
+    x_title: str,
+    title: str,
+    reference: float | None = None,
+) -> go.Figure:
+    """Weibull probability plot: failures at their plotting positions, the fitted line
+    and its two-sided bounds, on log(value) against ln(-ln(1 - F)).
+
+    ``points``: ``value``, ``unreliability``; ``line``: ``unreliability``, ``value``,
+    ``low``, ``high`` (either may be empty). ``x_title`` names the basis with its unit;
+    ``reference`` draws a vertical line (for example the rated B10 = 1 consumed fraction).
+    """
+    fig = _style(go.Figure(), title, x_title, "fraction failed [%] (Weibull scale)", 420)
+    if points.empty:
+        return _empty(fig, "no failures of this kind recorded yet")
+    if not line.empty:
+        y = weibull_scale(line["unreliability"])
+        for col, name, dash in (("low", "lower bound", "dot"), ("high", "upper bound", "dot")):
+            fig.add_trace(go.Scatter(
+                x=line[col], y=y, mode="lines", name=name,
+                line={"color": TREND, "dash": dash, "width": 1.5},
+            ))  # fmt: skip
+        fig.add_trace(go.Scatter(
+            x=line["value"], y=y, mode="lines", name="fitted Weibull (maximum likelihood)",
+            line={"color": TREND, "width": 2.5},
+        ))  # fmt: skip
+    fig.add_trace(go.Scatter(
+        x=points["value"], y=weibull_scale(points["unreliability"]), mode="markers",
+        name="failures (adjusted ranks)", marker={"color": INK, "size": 9, "symbol": "circle"},
+        customdata=100 * points["unreliability"],
+        hovertemplate="%{x:.4g}, %{customdata:.1f} % failed<extra></extra>",
+    ))  # fmt: skip
+    ticks = np.array(WEIBULL_TICKS)
+    fig.update_yaxes(
+        tickvals=weibull_scale(ticks), ticktext=[f"{100 * t:g}" for t in ticks],
+        range=[weibull_scale([0.005])[0], weibull_scale([0.995])[0]],
+    )  # fmt: skip
+    fig.update_xaxes(type="log")
+    if reference is not None:
+        y = weibull_scale([0.005, 0.995])
+        fig.add_trace(go.Scatter(
+            x=[reference, reference], y=list(y), mode="lines", name="rating: B10 = 1",
+            line={"color": LIMIT, "dash": "dash", "width": 2}, hoverinfo="name",
+        ))  # fmt: skip
+    return fig

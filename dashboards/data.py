@@ -145,9 +145,49 @@ def save_plan_options(url: str | None, opts: PlanOptions) -> None:
     )
 
 
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=8, show_spinner="Fitting the fleet's lives…")
+def calibration(url: str | None, confidence: float) -> pd.DataFrame:
+    """Model against field for every component model (usecases.calibrate)."""
+    return usecases.calibrate(engine(url), confidence=confidence)
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=16, show_spinner=False)
+def probability_plot(url: str | None, model: str, mode: str, confidence: float) -> tuple:
+    """Points and fitted line of one model's probability plot (usecases.probability_plot)."""
+    return usecases.probability_plot(engine(url), model, mode, confidence=confidence)
+
+
+@st.cache_data(ttl=FRAME_TTL_S, max_entries=4, show_spinner=False)
+def life_factors(url: str | None) -> pd.DataFrame:
+    """Accepted life factors in force (usecases.factors_in_force)."""
+    return usecases.factors_in_force(engine(url))
+
+
+def proposed_change(url: str | None, model: str, confidence: float) -> dict:
+    """What accepting ``model``'s suggested factor would change (nothing written)."""
+    return usecases.proposed_change(engine(url), model, confidence)
+
+
+def accept_life_factor(url: str | None, model: str, confidence: float) -> dict:
+    """Accept the suggested life factor (recorded as proposed by the dashboard); clear caches."""
+    done = usecases.accept_life_factor(
+        engine(url), model, proposed_by="dashboard calibration page", confidence=confidence
+    )
+    clear()
+    return done
+
+
+def undo_life_factor(url: str | None, model: str) -> dict:
+    """Take back the newest life factor of ``model``; clear caches."""
+    done = usecases.undo_life_factor(engine(url), model)
+    clear()
+    return done
+
+
 def clear() -> None:
     """Forget every cached frame (after an upload or a settings change)."""
-    for fn in (fleet, unit_report, settings, registry_text):
+    for fn in (fleet, unit_report, settings, registry_text, calibration, probability_plot,
+               life_factors):  # fmt: skip
         fn.clear()
 
 

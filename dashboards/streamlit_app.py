@@ -24,6 +24,8 @@ PAGES = [
             default=True),
     st.Page("app_pages/unit.py", title="Unit", icon=":material/search:", url_path="unit"),
     st.Page("app_pages/plan.py", title="Plan", icon=":material/event:", url_path="plan"),
+    st.Page("app_pages/calibration.py", title="Calibration", icon=":material/query_stats:",
+            url_path="calibration"),
     st.Page("app_pages/upload.py", title="Upload", icon=":material/upload:", url_path="upload"),
     st.Page("app_pages/settings.py", title="Settings", icon=":material/tune:",
             url_path="settings"),

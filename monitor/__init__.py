@@ -16,6 +16,9 @@ The API (loaded on first use, so that importing :mod:`monitor` is fast):
 - :func:`make_plan` — the rebuild plan within the shop's capacity
 - :func:`recompute` — rebuild the damage ledger after a model or registry change
 - :func:`add_service_event` — record a rebuild, replacement or hour-meter change
+- :func:`calibrate` — the fleet's own lives against the rating (Weibull fits, a
+  suggested life factor); :func:`accept_life_factor` / :func:`undo_life_factor`
+- :func:`fit_weibull` — two-parameter Weibull by maximum likelihood with right censoring
 - :class:`DomainError` — what a refused request raises, with a message for the user
 
 Layers, bottom up: :mod:`monitor.domain` (record types), :mod:`monitor.models` (physics,
@@ -40,6 +43,10 @@ _API = {
     "unit_report": ("monitor.usecases.status", "unit_report"),
     "make_plan": ("monitor.usecases.plan", "make_plan"),
     "add_service_event": ("monitor.usecases.events", "add_service_event"),
+    "calibrate": ("monitor.usecases.calibration", "calibrate"),
+    "accept_life_factor": ("monitor.usecases.calibration", "accept_life_factor"),
+    "undo_life_factor": ("monitor.usecases.calibration", "undo_life_factor"),
+    "fit_weibull": ("monitor.models.weibull", "fit_weibull"),
     "DomainError": ("monitor.domain.errors", "DomainError"),
 }
 

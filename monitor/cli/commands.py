@@ -64,16 +64,26 @@ def fleet_import(path: Path, db_url: str) -> None:
 @db_option
 @domain_errors
 def fleet_show(db_url: str) -> None:
-    """Print the last imported fleet registry.
+    """Print the last imported fleet registry, and any accepted life factors in force.
 
     Example: drivespan fleet show
     """
-    text = usecases.show_registry(usecases.init_db(db_url))
+    engine = usecases.init_db(db_url)
+    text = usecases.show_registry(engine)
     if text is None:
         raise usecases.DomainError(
             "no fleet registry imported yet: run drivespan fleet import FILE"
         )
     click.echo(text, nl=False)
+    factors = usecases.factors_in_force(engine)
+    if not factors.empty:
+        click.echo("\n# accepted life factors (drivespan calibrate), in force on top of the")
+        click.echo("# rated_l10_h above; a registry import does not change them:")
+        for row in factors.itertuples(index=False):
+            click.echo(
+                f"#   {row.component_model}: x {row.factor:.4g} since "
+                f"{row.accepted_at:%Y-%m-%d} ({row.proposed_by})"
+            )
 
 
 @main.command("ingest")
@@ -248,6 +258,11 @@ def service_group() -> None:
     metavar="H",
     help="Reading of the new meter (hour_meter_change only) [h].",
 )
+@click.option(
+    "--reason",
+    type=click.Choice(["failure", "wear_limit", "preventive", "other"]),
+    help="Why a rebuild or replacement ended the life; none reads as other.",
+)
 @click.option("--note", help="Free text, e.g. what was done.")
 @db_option
 @domain_errors
@@ -258,6 +273,7 @@ def service_add(
     at: str,
     hour_meter: float,
     new_hour_meter: float | None,
+    reason: str | None,
     note: str | None,
     db_url: str,
 ) -> None:
@@ -267,7 +283,7 @@ def service_add(
     before it no longer count for that drive's status.
 
     \b
-    Example: drivespan service add QX-104 --position left --kind rebuild --at 2026-11-20T08:00:00Z --hour-meter 6120
+    Example: drivespan service add QX-104 --position left --kind rebuild --at 2026-11-20T08:00:00Z --hour-meter 6120 --reason failure
     """  # noqa: E501
     from datetime import datetime
 
@@ -287,9 +303,11 @@ def service_add(
         position=position,
         new_hour_meter=new_hour_meter,
         note=note,
+        reason=reason,
     )
+    why = f", reason {ev['reason']}" if ev["reason"] else ""
     where = f" {ev['position']}" if ev["position"] else ""
     click.echo(
         f"recorded {ev['kind']} of {ev['unit']}{where} at {ev['at'].isoformat()}, "
-        f"hour meter {ev['hour_meter']:g} h"
+        f"hour meter {ev['hour_meter']:g} h{why}"
     )

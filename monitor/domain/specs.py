@@ -84,6 +84,7 @@ class ServiceSpec:
     hour_meter: float
     new_hour_meter: float | None = None  # hour_meter_change: reading after the change
     note: str | None = None
+    reason: str | None = None  # rebuild/replacement: one of vocabulary.SERVICE_REASONS
 
 
 @dataclass(frozen=True)

@@ -25,14 +25,12 @@ import math
 import numpy as np
 import pandas as pd
 
-from monitor.models.weibull import fit_weibull
+from monitor.domain.vocabulary import MISSING_REASON, SERVICE_REASONS
+from monitor.models.weibull import b_life_bounds, fit_weibull, plotting_positions
 
-REASONS = ("failure", "wear_limit", "preventive", "other")
+REASONS = SERVICE_REASONS
 """Why a life ended: bearing or rotating-group failure found, case-drain wear limit
 reached, taken out while still serviceable, anything else."""
-
-MISSING_REASON = "other"
-"""Reason assumed for an ended life recorded without one."""
 
 MODES = {"bearing": ("consumed_fraction", "failure"), "wear_limit": ("operating_h", "wear_limit")}
 """Fitted modes: mode -> (basis column, reason that counts as a failure)."""
@@ -269,3 +267,54 @@ def table_records(table: pd.DataFrame) -> list[dict]:
         {col: plain(value) for col, value in zip(CALIBRATION_COLUMNS, row, strict=True)}
         for row in table.loc[:, list(CALIBRATION_COLUMNS)].itertuples(index=False)
     ]
+
+
+PLOT_FRACTIONS = tuple(float(q) for q in np.round(np.geomspace(0.01, 0.9, 24), 6))
+"""Fractions failed at which the fitted line and its bounds are drawn [-]."""
+
+
+def probability_frames(
+    lives: pd.DataFrame, mode: str, confidence: float = DEFAULT_CONFIDENCE
+) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Points and fitted line of a Weibull probability plot of one group and mode.
+
+    Parameters
+    ----------
+    lives : pandas.DataFrame
+        The lives of one component model (and site); see :func:`check_lives`.
+    mode : {"bearing", "wear_limit"}
+        Which failures to plot; see :data:`MODES`.
+    confidence : float, optional
+        Two-sided confidence level of the bounds, 0 < confidence < 1 [-].
+
+    Returns
+    -------
+    points : pandas.DataFrame
+        ``value`` [basis unit] and ``unreliability`` [-] of each failure, by Johnson's
+        adjusted ranks with Bernard's approximation (suspensions respected); empty
+        without failures.
+    line : pandas.DataFrame
+        ``unreliability`` [-] at :data:`PLOT_FRACTIONS`, the maximum-likelihood B-life
+        ``value`` and its likelihood-ratio bounds ``low`` and ``high`` [basis unit];
+        empty with fewer than :data:`MIN_FAILURES_FIT` failures.
+
+    References
+    ----------
+    Johnson, L. G., The Statistical Treatment of Fatigue Experiments, Elsevier 1964.
+    Meeker, W. Q. and Escobar, L. A., Statistical Methods for Reliability Data, Wiley
+    1998, ch. 6 (probability plotting) and ch. 8 (likelihood-based intervals).
+    """
+    failures, suspensions, _ = mode_sample(check_lives(lives), mode)
+    points = pd.DataFrame({"value": [], "unreliability": []}, dtype=float)
+    line = pd.DataFrame({"unreliability": [], "value": [], "low": [], "high": []}, dtype=float)
+    if failures.size:
+        t, f = plotting_positions(failures, suspensions)
+        points = pd.DataFrame({"value": t, "unreliability": f})
+    if failures.size >= MIN_FAILURES_FIT:
+        q = np.array(PLOT_FRACTIONS)
+        try:
+            est, low, high = b_life_bounds(failures, suspensions, q, confidence)
+        except ValueError:
+            return points, line
+        line = pd.DataFrame({"unreliability": q, "value": est, "low": low, "high": high})
+    return points, line

@@ -26,6 +26,7 @@ from monitor.domain.specs import (
     SiteSpec,
     UnitSpec,
 )
+from monitor.domain.vocabulary import SERVICE_REASONS
 from monitor.ingest.units import PRESSURE_RANGE_BAR
 
 ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
@@ -92,6 +93,7 @@ SERVICE = {
     "hour_meter": ("num0", True, None),
     "new_hour_meter": ("num0", False, None),
     "note": ("text", False, None),
+    "reason": (("enum", SERVICE_REASONS), False, None),
 }
 SECTIONS = ("oils", "component_models", "sites", "units")
 
@@ -427,6 +429,12 @@ def _check_service(u: UnitSpec, p: str, ck: _Check) -> None:
                     None,
                     "missing required field `new_hour_meter` for an hour_meter_change: "
                     "expected the meter reading after the change, a number >= 0",
+                )
+            if s.reason is not None:
+                ck.add(
+                    f"{q}.reason",
+                    s.reason,
+                    "reason is only for a rebuild or replacement (why the life ended): remove it",
                 )
         elif s.new_hour_meter is not None:
             ck.add(

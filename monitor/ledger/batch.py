@@ -5,7 +5,7 @@ the store fills them from stored rows and writes the results)."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -108,12 +108,25 @@ def _column_group(b: HistogramBatch, src: np.ndarray, idx: np.ndarray, is_ps: bo
 
 @dataclass(frozen=True)
 class ComponentTable:
-    """Model id, model rating, registry row and oil of every component (plain dicts)."""
+    """Model id, model rating, registry row and oil of every component (plain dicts).
+
+    ``life_factors``: the accepted life factor per model id (absent: none accepted); it
+    multiplies the registry's rated L10 in :meth:`rated_model`.
+    """
 
     model_of: dict[int, int]
     models: dict[int, ComponentModelSpec]
     rows: dict[int, dict]
     oils: dict[int, OilSpec]
+    life_factors: dict[int, float] = field(default_factory=dict)
+
+    def rated_model(self, model_id: int) -> ComponentModelSpec:
+        """The model's spec with any accepted life factor applied to ``rated_l10_h`` [h]."""
+        spec = self.models[model_id]
+        factor = self.life_factors.get(model_id)
+        if factor is None:
+            return spec
+        return replace(spec, rated_l10_h=spec.rated_l10_h * factor)
 
     def bearing_components(self) -> set[int]:
         """Components whose model has the bearing data of the oil-condition factor."""

@@ -33,7 +33,7 @@ def batch_metrics(batch: Batch, table: ComponentTable, samples: dict[int, pd.Dat
         for mid in np.unique(mids):
             sel = np.flatnonzero(mids == mid) if mids.min() != mids.max() else slice(None)
             rows = g.rows[sel]
-            m = table.models[int(mid)]
+            m = table.rated_model(int(mid))
             oil = OilCondition(nu[rows], ec[rows]) if has_bearing_data(m) else None
             res = metrics_arrays(
                 g.quantity,

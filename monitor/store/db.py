@@ -124,6 +124,9 @@ service_event = Table(
     Column("hour_meter", Float, nullable=False),
     Column("new_hour_meter", Float),
     Column("note", Text),
+    # Why a rebuild or replacement ended the life (failure, wear_limit, preventive,
+    # other); NULL for older events and hour-meter changes, read as "other".
+    Column("reason", String(16)),
     UniqueConstraint("unit_id", "component_id", "kind", "at", name="uq_service_event_key"),
     # The status read's "last rebuild at or before" per component: one seek each
     # (the unique key leads with unit_id, so without this it scans every event).
@@ -237,6 +240,22 @@ setting = Table(
     Column("value", Text, nullable=False),
 )
 
+# Accepted life factors: a recorded, dated, reversible change of a component model's
+# rated L10. The newest row of a model with undone_at NULL is in force; its factor
+# multiplies the registry's rating (the registry import never touches this table).
+rating_change = Table(
+    "rating_change",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("model_id", ForeignKey("component_model.id", ondelete="CASCADE"), nullable=False),
+    Column("factor", Float, nullable=False),
+    Column("proposed_by", String(120), nullable=False),
+    Column("data_summary", Text, nullable=False),
+    Column("accepted_at", TS, nullable=False),
+    Column("undone_at", TS),
+    Index("ix_rating_change_model_id", "model_id", "id"),
+)
+
 registry_document = Table(
     "registry_document",
     metadata,
@@ -291,9 +310,13 @@ def transaction(engine: Engine) -> Iterator[Connection]:
 
 def migrations_dir() -> Path:
     """Folder of the Alembic environment: ``migrations/`` of the source tree, installed
-    as the package ``monitor.migrations``."""
+    as the package ``monitor.migrations``. Run from a source checkout, the checkout's own
+    folder wins (an editable install elsewhere must not supply another tree's revisions)."""
     from importlib.resources import files
 
+    checkout = Path(__file__).resolve().parents[2] / "migrations"
+    if (checkout / "env.py").is_file():
+        return checkout
     return Path(str(files("monitor.migrations")))
 
 

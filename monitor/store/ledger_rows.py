@@ -23,7 +23,7 @@ from monitor.domain.records import QUANTITY_PRESSURE_SPEED
 from monitor.domain.specs import ComponentModelSpec
 from monitor.ingest.common import group_ids
 from monitor.ledger.batch import Batch, ComponentTable, batch_from_columns
-from monitor.store import db, queries
+from monitor.store import db, queries, rating_changes
 from monitor.store.bulk import (
     STORED_SQL,
     batch_from_rows,
@@ -82,6 +82,7 @@ def component_table(conn: Connection, ids: list[int] | None = None) -> Component
         models,
         {r["component_id"]: r for r in recs},
         {r["component_id"]: queries.oil_spec(r) for r in recs},
+        rating_changes.factors_by_model_id(conn),
     )
 
 

@@ -116,7 +116,12 @@ def _upsert_service(
             )
         ).scalar()
     key = {"unit_id": unit_id, "component_id": comp_id, "kind": ev.kind, "at": ev.at}
-    vals = {"hour_meter": ev.hour_meter, "new_hour_meter": ev.new_hour_meter, "note": ev.note}
+    vals = {
+        "hour_meter": ev.hour_meter,
+        "new_hour_meter": ev.new_hour_meter,
+        "note": ev.note,
+        "reason": ev.reason,
+    }
     t = db.service_event
     cond = and_(
         t.c.unit_id == unit_id,

@@ -25,9 +25,10 @@ from itertools import chain
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import Connection, and_, func, literal, select
+from sqlalchemy import Connection, and_, case, func, literal, null, select
 
 from monitor.domain.records import Histogram
+from monitor.domain.vocabulary import MISSING_REASON
 from monitor.store import db, queries
 
 LIFE_START_KINDS = ("rebuild", "replacement")
@@ -442,13 +443,20 @@ def recent_uploads(
 
 
 def service_history(conn: Connection, unit_id: int) -> pd.DataFrame:
-    """Service events of one unit, oldest first: at, position, kind, hour_meter, note."""
+    """Service events of one unit, oldest first: at, position, kind, reason, hour_meter,
+    new_hour_meter, note. A rebuild or replacement without a reason reads ``other``; an
+    hour-meter change has none."""
     se, c = db.service_event, db.component
+    reason = case(
+        (se.c.kind.in_(LIFE_START_KINDS), func.coalesce(se.c.reason, literal(MISSING_REASON))),
+        else_=null(),
+    )
     q = (
         select(
             se.c.at,
             func.coalesce(c.c.position, literal("(unit)")).label("position"),
             se.c.kind,
+            reason.label("reason"),
             se.c.hour_meter,
             se.c.new_hour_meter,
             se.c.note,

@@ -5,7 +5,8 @@ package API in :mod:`monitor`). Modules: :mod:`~monitor.usecases.common` (result
 errors, opening a store), :mod:`~monitor.usecases.registry`,
 :mod:`~monitor.usecases.telemetry`, :mod:`~monitor.usecases.settings`,
 :mod:`~monitor.usecases.status`, :mod:`~monitor.usecases.events`,
-:mod:`~monitor.usecases.plan`, :mod:`~monitor.usecases.demo`.
+:mod:`~monitor.usecases.plan`, :mod:`~monitor.usecases.demo`,
+:mod:`~monitor.usecases.calibration`.
 
 The public names are gathered here and loaded on first use (PEP 562), so that a command
 that only prints its help does not import the database layer or pandas.
@@ -17,6 +18,17 @@ import importlib
 
 _WHERE = {
     "ACCEPTED": "common",
+    "accept_life_factor": "calibration",
+    "calibrate": "calibration",
+    "calibration_records": "calibration",
+    "CALIBRATION_COLUMNS": "calibration",
+    "CALIBRATION_MODES": "calibration",
+    "probability_plot": "calibration",
+    "factors_in_force": "calibration",
+    "lives": "calibration",
+    "proposed_change": "calibration",
+    "rating_history": "calibration",
+    "undo_life_factor": "calibration",
     "DUPLICATE": "common",
     "REJECTED": "common",
     "VALID": "common",
@@ -24,6 +36,7 @@ _WHERE = {
     "FileResult": "common",
     "init_db": "common",
     "SERVICE_KINDS": "events",
+    "SERVICE_REASONS": "events",
     "add_service_event": "events",
     "REGISTRY_SUFFIXES": "registry",
     "has_registry": "registry",

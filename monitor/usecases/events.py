@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
+from monitor.domain.vocabulary import SERVICE_REASONS
 from monitor.store import db, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError
@@ -22,15 +23,18 @@ def add_service_event(
     position: str | None = None,
     new_hour_meter: float | None = None,
     note: str | None = None,
+    reason: str | None = None,
 ) -> dict:
     """Record a rebuild, replacement or hour-meter change of a unit; return it as a dict.
 
     A rebuild or replacement needs the component's ``position``; an hour-meter change
-    is of the whole unit and needs ``new_hour_meter``. The ledger is not rewritten:
-    its damage values do not depend on rebuilds; the status reads only the rows after
-    the last rebuild. Raises DomainError with what to correct.
+    is of the whole unit and needs ``new_hour_meter``. ``reason`` says why a rebuild or
+    replacement ended the life (one of :data:`SERVICE_REASONS`; none reads ``other``).
+    The ledger is not rewritten: its damage values do not depend on rebuilds; the status
+    reads only the rows after the last rebuild. Raises DomainError with what to correct.
     """
     event = _checked_event(tag, kind, at, hour_meter, position, new_hour_meter)
+    _check_reason(kind, reason)
     with db.transaction(engine) as conn:
         unit = queries.unit_id(conn, tag)
         if unit is None:
@@ -52,8 +56,19 @@ def add_service_event(
             at=event["at"],
             hour_meter=hour_meter,
             new_hour_meter=new_hour_meter,
+            reason=reason,
         )
-    return {"unit": tag, "position": position, "note": note, **event}
+    return {"unit": tag, "position": position, "note": note, "reason": reason, **event}
+
+
+def _check_reason(kind: str, reason: str | None) -> None:
+    if reason is None:
+        return
+    if kind == "hour_meter_change":
+        raise DomainError("--reason applies only to a rebuild or replacement (why the life ended)")
+    if reason not in SERVICE_REASONS:
+        valid = ", ".join(SERVICE_REASONS)
+        raise DomainError(f"reason {reason!r} is not known: use one of {valid}")
 
 
 def _checked_event(tag, kind, at, hour_meter, position, new_hour_meter) -> dict:  # noqa: ANN001
