@@ -1,0 +1,1 @@
+"""Readers: a file-like object in, validated records and problems out; no database."""

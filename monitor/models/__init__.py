@@ -1,0 +1,1 @@
+"""Numerical models: numpy in, numpy out; no files, no database."""
