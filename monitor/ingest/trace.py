@@ -124,11 +124,13 @@ def _seekable(stream: BinaryIO | bytes) -> Iterator[BinaryIO]:
 def _read_header(fh: BinaryIO, probs: ProblemList) -> tuple[str, list[str]] | None:
     """Separator and column labels of the header line, or None with a problem."""
     raw = fh.readline(HEADER_LIMIT_BYTES + 1)
-    if len(raw) > HEADER_LIMIT_BYTES:
+    ends = [i for i in (raw.find(b"\r"), raw.find(b"\n")) if i >= 0]
+    if not ends and len(raw) > HEADER_LIMIT_BYTES:
         probs.add(1, None, None, f"the header line is longer than {HEADER_LIMIT_BYTES} bytes")
         return None
+    raw = raw[: min(ends)] if ends else raw  # the CSV reader also ends a line at a lone CR
     try:
-        first = raw.decode("utf-8-sig").rstrip("\r\n")
+        first = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         probs.add(1, None, None, "the header is not UTF-8 text: save the file as CSV UTF-8")
         return None
@@ -136,7 +138,12 @@ def _read_header(fh: BinaryIO, probs: ProblemList) -> tuple[str, list[str]] | No
         probs.add(1, None, None, f"the file has no header line: a trace CSV needs {_KNOWN}")
         return None
     sep = ";" if first.count(";") > first.count(",") else ","
-    return sep, [h.strip() for h in next(csv.reader([first], delimiter=sep))]
+    try:
+        labels = next(csv.reader([first], delimiter=sep))
+    except csv.Error as e:
+        probs.add(1, None, shown(first), f"cannot read the header line ({e}): {_KNOWN}")
+        return None
+    return sep, [h.strip() for h in labels]
 
 
 def _resolve_header(labels: list[str], probs: ProblemList) -> Columns:
@@ -286,6 +293,17 @@ class _Reader:
 
     def _ragged(self, e: Exception) -> None:
         m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
+        quote = re.search(r"EOF inside string starting at row (\d+)", str(e))
+        if quote is not None:  # the row counts data rows from 1 after the header
+            line = int(quote.group(1)) + 1
+            self.probs.add(
+                line,
+                None,
+                None,
+                'a quote (") on this line opens a value that is '
+                "never closed: remove the quote or close it",
+            )
+            return
         if m is None:
             self.probs.add(None, None, None, f"cannot read the CSV: {shown(str(e))}")
             return
