@@ -1,6 +1,6 @@
 """Read a logged pressure trace (CSV) chunk by chunk into histograms, cycles, peaks, stalls.
 
-Format (also in ``docs/formats.md``): UTF-8 text, comma-separated (or semicolon-separated
+Format (for users in ``docs/formats.md``): UTF-8 text, comma-separated (or semicolon-separated
 with a decimal comma, told apart by the header line); one row per sample, with
 
 - a time column: ``time_s`` (elapsed seconds, any start) or ``timestamp`` (ISO 8601 with a
@@ -33,7 +33,12 @@ import numpy as np
 import pandas as pd
 
 from monitor import units as U
-from monitor.ingest.trace_accumulate import TraceAccumulator, TraceResult, TraceSettings
+from monitor.ingest.trace_accumulate import (
+    TraceAccumulator,
+    TraceResult,
+    TraceSettings,
+    trace_histograms,
+)
 from monitor.ingest_common import MAX_PROBLEMS, ProblemList, fmt
 from monitor.records import utc_datetimes
 
@@ -44,6 +49,10 @@ SHOWN_CHARS = 60
 """Longest value echoed in a problem; longer values are cut with an ellipsis."""
 HEADER_LIMIT_BYTES = 65536
 """Longest header line read."""
+LINE_LIMIT_BYTES = 65536
+"""Longest data line accepted: a row of a trace is well under 100 bytes, and the CSV reader
+would hold a longer line whole, whatever the chunk size."""
+_SCAN_BLOCK_BYTES = 1 << 22
 
 _KNOWN = "time_s or timestamp, pressure_a_<unit>, pressure_b_<unit>, speed_rpm (optional)"
 _TS_RE = r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
@@ -53,7 +62,7 @@ _TS_HELP = "write ISO 8601 with an offset, e.g. 2026-03-02T10:00:00Z or 2026-03-
 Columns = dict[str, tuple[int, str | None]]
 """Logical column -> (position in the header, unit spelling or None)."""
 
-__all__ = ["TraceResult", "TraceSettings", "read_trace"]
+__all__ = ["TraceResult", "TraceSettings", "read_trace", "trace_histograms"]
 
 
 class _NeedText(Exception):
@@ -94,6 +103,8 @@ def read_trace(
         head = ProblemList(name)
         header = _read_header(fh, head)
         cols = _resolve_header(header[1], head) if header else None
+        if not head:
+            _check_line_lengths(fh, origin, head)
         if head:
             return TraceResult(name, tuple(head.result()), settings)
         for typed in (True, False):
@@ -119,6 +130,37 @@ def _seekable(stream: BinaryIO | bytes) -> Iterator[BinaryIO]:
         shutil.copyfileobj(stream, tmp, 1 << 20)
         tmp.seek(0)
         yield tmp
+
+
+def _check_line_lengths(fh: BinaryIO, origin: int, probs: ProblemList) -> None:
+    """A problem for the first line longer than :data:`LINE_LIMIT_BYTES` (one pass in
+    blocks; line ends are LF, CR or CR LF)."""
+    fh.seek(origin)
+    since_end, lines, after_cr = 0, 1, False
+    while chunk := fh.read(_SCAN_BLOCK_BYTES):
+        b = np.frombuffer(chunk, dtype=np.uint8)
+        is_end = (b == 10) | (b == 13)
+        ends = np.flatnonzero(is_end)
+        starts_line = (b == 10) | ((b == 13) & (np.r_[b[1:], 0] != 10))  # one per line end
+        starts_line[0] &= not (after_cr and b[0] == 10)  # a CR LF split between blocks
+        after_cr = b[-1] == 13
+        gaps = np.diff(ends, prepend=-1 - since_end) - 1
+        tail = len(chunk) - 1 - (ends[-1] if ends.size else -1 - since_end)
+        long = np.flatnonzero(gaps > LINE_LIMIT_BYTES)
+        if long.size or tail > LINE_LIMIT_BYTES:
+            at = ends[long[0]] if long.size else len(chunk)
+            line = lines + int(np.count_nonzero(starts_line[:at]))
+            probs.add(
+                line,
+                None,
+                None,
+                f"line {line} is longer than {LINE_LIMIT_BYTES} bytes: "
+                "a trace has one short row per sample",
+            )
+            return
+        lines += int(np.count_nonzero(starts_line))
+        since_end = tail
+    fh.seek(origin)
 
 
 def _read_header(fh: BinaryIO, probs: ProblemList) -> tuple[str, list[str]] | None:
@@ -266,10 +308,11 @@ class _Reader:
         except pd.errors.ParserError as e:
             self.unreadable = True
             self._ragged(e)
-        except ValueError:
+        except ValueError as e:
             if typed:
                 raise _NeedText from None
-            raise
+            self.unreadable = True
+            self.probs.add(None, None, None, f"cannot read the CSV: {shown(str(e))}")
 
     def _csv_options(self, typed: bool) -> dict:
         names = [f"c{i}" for i in range(len(self.labels))]  # every column is known

@@ -10,14 +10,15 @@ and :mod:`monitor.models.cycles`; the result does not depend on the chunk size.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from datetime import datetime
+from dataclasses import asdict, dataclass, field
+from datetime import datetime, timedelta
 
 import numpy as np
 
 from monitor.models import cycles as C
 from monitor.models import peaks as P
 from monitor.models import trace as T
+from monitor.records import QUANTITY_PRESSURE, QUANTITY_PRESSURE_SPEED, Histogram
 
 
 @dataclass(frozen=True)
@@ -47,7 +48,8 @@ class TraceSettings:
     hysteresis_bar : float
         Turning-point gate [bar] (:data:`monitor.models.cycles.DEFAULT_HYSTERESIS_BAR`).
     envelope_buckets : int
-        The plotting envelope keeps between this many and twice as many buckets.
+        The plotting envelope keeps at most twice this many buckets (of equal width, at
+        least half as many over the whole trace).
     chunk_rows : int
         Rows read per chunk (memory bound; results do not depend on it).
     """
@@ -69,6 +71,10 @@ class TraceSettings:
     chunk_rows: int = 200_000
 
     def __post_init__(self) -> None:
+        for name in ("edges_bar", "speed_edges_rpm"):  # lists given: keep them immutable
+            value = getattr(self, name)
+            if value is not None:
+                object.__setattr__(self, name, tuple(float(v) for v in np.ravel(value)))
         for name in ("max_gap_s", "band_width_bar", "speed_band_width_rpm", "note_min_s"):
             value = getattr(self, name)
             if not (np.isfinite(value) and value > 0):
@@ -98,10 +104,12 @@ class Envelope:
     bucket_s : float
         Bucket width [s].
     start_s : numpy.ndarray (K,)
-        Start of each bucket [s since the first sample].
+        Start of each bucket that holds samples [s since the first sample]; buckets without
+        samples are left out, so a plot should break its line where ``start_s`` jumps by
+        more than the gap limit.
     minimum, maximum : dict of str to numpy.ndarray (K,)
         Per channel (``pressure_a_bar``, ``pressure_b_bar``, ``speed_rpm``), the smallest and
-        largest sample in each bucket; nan in a bucket without samples.
+        largest sample in each bucket.
     """
 
     bucket_s: float
@@ -147,12 +155,13 @@ class EnvelopeBuilder:
         self.used = (self.used + 1) // 2
 
     def result(self) -> Envelope:
-        n = self.used
+        first = next(iter(self.lo.values()))[: self.used]
+        keep = np.flatnonzero(~np.isnan(first))  # buckets with samples
         return Envelope(
             bucket_s=self.width,
-            start_s=np.arange(n) * self.width,
-            minimum={c: a[:n].copy() for c, a in self.lo.items()},
-            maximum={c: a[:n].copy() for c, a in self.hi.items()},
+            start_s=keep * self.width,
+            minimum={c: a[keep] for c, a in self.lo.items()},
+            maximum={c: a[keep] for c, a in self.hi.items()},
         )
 
 
@@ -243,6 +252,115 @@ class TraceResult:
     def operating_hours(self) -> float:
         """Hours in the histogram [h] (``covered_s / 3600``)."""
         return self.covered_s / 3600.0
+
+    def summary(self) -> dict:
+        """The trace's summary as plain JSON-ready values (nan as None), to keep beside the
+        histogram made from it: sizes, times, means, peak and stall figures, notes and the
+        settings used."""
+        relief, cutoff = self.relief_excursions, self.cutoff_excursions
+        out = {
+            "file": self.name,
+            "samples": self.samples,
+            "duration_s": self.duration_s,
+            "covered_s": self.covered_s,
+            "gap_count": self.gap_count,
+            "gap_total_s": self.gap_total_s,
+            "started_at": None if self.started_at is None else self.started_at.isoformat(),
+            "ended_at": None if self.ended_at is None else self.ended_at.isoformat(),
+            "source_units": dict(self.source_units),
+            "mean_low_side_bar": self.mean_low_side_bar,
+            "mean_high_side_bar": self.mean_high_side_bar,
+            "max_high_side_bar": self.max_high_side_bar,
+            "mean_speed_rpm": self.mean_speed_rpm,
+            "turning_points": int(self.turning_points_bar.size),
+            "relief_excursions": None if relief is None else len(relief),
+            "cutoff_excursions": None if cutoff is None else len(cutoff),
+            "stalls": None if self.stalls is None else asdict(self.stalls),
+            "notes": list(self.notes),
+            "settings": asdict(self.settings),
+        }
+        return _plain(out)
+
+
+def _plain(value):
+    """nan -> None and tuples -> lists, recursively (JSON has neither)."""
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_plain(v) for v in value]
+    if isinstance(value, float | np.floating):
+        return None if np.isnan(value) else float(value)
+    return value
+
+
+def trace_histograms(
+    result: TraceResult,
+    *,
+    unit: str,
+    position: str,
+    hour_meter_start: float,
+    started_at: datetime | None = None,
+    hour_meter_end: float | None = None,
+) -> list[Histogram]:
+    """The histograms of a clean trace as ordinary upload records.
+
+    Parameters
+    ----------
+    result : TraceResult
+        A trace without problems.
+    unit, position : str
+        The unit's tag and the loop's position.
+    hour_meter_start : float
+        Hour meter at the first sample [h].
+    started_at : datetime, optional
+        Time of the first sample (timezone-aware); required when the file has no
+        timestamps, ignored when it has.
+    hour_meter_end : float, optional
+        Hour meter at the last sample [h]; default ``hour_meter_start + duration_s / 3600``
+        (the machine ran through the gaps; their time is in no band).
+
+    Returns
+    -------
+    list of Histogram
+        A ``pressure`` histogram of the high side [bar, h] with the mean speed when there
+        is one, and a ``pressure_speed`` matrix when the file has speed.
+    """
+    if not result.ok:
+        raise ValueError("result has problems: a rejected trace has no histograms")
+    start = result.started_at or started_at
+    if start is None or start.tzinfo is None:
+        raise ValueError(
+            "started_at must be a timezone-aware datetime when the file has no timestamps"
+        )
+    end = start + timedelta(seconds=result.duration_s)
+    hm_end = (
+        hour_meter_start + result.duration_s / 3600.0 if hour_meter_end is None else hour_meter_end
+    )
+    edges = result.pressure_edges_bar
+    common = dict(
+        unit=unit,
+        position=position,
+        period_start=start,
+        period_end=end,
+        hour_meter_start=hour_meter_start,
+        hour_meter_end=hm_end,
+        pressure_low_bar=edges[:-1].copy(),
+        pressure_high_bar=edges[1:].copy(),
+        mean_speed_rpm=result.mean_speed_rpm,
+    )
+    out = [Histogram(quantity=QUANTITY_PRESSURE, hours=result.hours.copy(), **common)]
+    if result.hours_by_speed is not None:
+        s = result.speed_edges_rpm
+        out.append(
+            Histogram(
+                quantity=QUANTITY_PRESSURE_SPEED,
+                hours=result.hours_by_speed.copy(),
+                speed_low_rpm=s[:-1].copy(),
+                speed_high_rpm=s[1:].copy(),
+                **common,
+            )
+        )
+    return out
 
 
 class TraceAccumulator:

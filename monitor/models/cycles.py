@@ -67,7 +67,9 @@ def plain_reversals(values: np.ndarray) -> np.ndarray:
     keep = np.flatnonzero(np.r_[True, values[1:] != values[:-1]])
     step = np.diff(values[keep])
     inner = np.flatnonzero(step[:-1] * step[1:] < 0) + 1
-    return np.unique(np.concatenate([keep[:1], keep[inner], keep[-1:]]))
+    if keep.size == 1:
+        return keep
+    return np.concatenate([keep[:1], keep[inner], keep[-1:]])  # sorted, no repeats
 
 
 def _gate(values: list, times: list, carry: TurningCarry, hysteresis: float):

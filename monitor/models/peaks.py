@@ -31,13 +31,15 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from monitor.relief import RELIEF_FRACTION
+
 RESET_FRACTION = 0.90
 """Reset level and start of the rise-rate measurement, as a share of the setting [-]
 (common practice, no source)."""
 
-AT_SETTING_FRACTION = 0.95
-"""A sample is "at" a setting from this share of it [-] (common practice, no source; the
-same rule as the relief hours of logged histograms)."""
+AT_SETTING_FRACTION = RELIEF_FRACTION
+"""A sample is "at" a setting from this share of it [-]: the rule of the relief hours of
+logged histograms (0.95; common practice, no source)."""
 
 STALL_SPEED_RPM = 50.0
 """Below this shaft speed a drive is taken as stalled [rpm] (common practice, no source)."""

@@ -3,6 +3,7 @@
     python tests/benchmarks/bench_trace.py                    # one hour at 1 kHz
     python tests/benchmarks/bench_trace.py --rows 360000      # a quicker look
     python tests/benchmarks/bench_trace.py --hysteresis-bar 0 # every reversal kept
+    python tests/benchmarks/bench_trace.py --timestamps       # ISO 8601 time column
 
 Generates a seeded, invented trace of a loader's drive loop (both loop pressures with
 sensor noise, direction changes, digging cycles, stalls against the relief, short spikes,
@@ -70,8 +71,11 @@ def _template(rng, n_cycles: int):
     return t, np.stack([p.ravel(), speed.ravel()])
 
 
-def make_trace(path: Path, rows: int, rate_hz: float, seed: int = 14) -> None:
-    """Write the invented trace CSV (time_s, pressure_a_bar, pressure_b_bar, speed_rpm)."""
+def make_trace(
+    path: Path, rows: int, rate_hz: float, timestamps: bool = False, seed: int = 14
+) -> None:
+    """Write the invented trace CSV (time_s or timestamp, pressure_a_bar, pressure_b_bar,
+    speed_rpm)."""
     import numpy as np
     import pandas as pd
 
@@ -88,9 +92,13 @@ def make_trace(path: Path, rows: int, rate_hz: float, seed: int = 14) -> None:
     a = np.where(forward, high, low).clip(0.0, 1000.0).round(1)
     b = np.where(forward, low, high).clip(0.0, 1000.0).round(1)
     speed = (np.interp(t, kt, ks) + rng.normal(0.0, 3.0, rows)).clip(0.0).round(0)
-    frame = pd.DataFrame(
-        {"time_s": t.round(3), "pressure_a_bar": a, "pressure_b_bar": b, "speed_rpm": speed}
-    )
+    time_col = {"time_s": t.round(3)}
+    if timestamps:
+        ms = np.datetime64("2026-03-02T06:00:00", "ms") + np.round(t * 1000).astype(
+            "timedelta64[ms]"
+        )
+        time_col = {"timestamp": np.char.add(np.datetime_as_string(ms, unit="ms"), "Z")}
+    frame = pd.DataFrame({**time_col, "pressure_a_bar": a, "pressure_b_bar": b, "speed_rpm": speed})
     try:
         import pyarrow as pa
         import pyarrow.csv as pacsv
@@ -154,6 +162,7 @@ def main() -> None:
     ap.add_argument("--rate-hz", type=float, default=1000.0)
     ap.add_argument("--chunk-rows", type=int, default=200_000)
     ap.add_argument("--hysteresis-bar", type=float, default=5.0, help="turning-point gate")
+    ap.add_argument("--timestamps", action="store_true", help="ISO 8601 times, not time_s")
     ap.add_argument("--read", type=Path, help=argparse.SUPPRESS)  # child: read
     ap.add_argument("--make", type=Path, help=argparse.SUPPRESS)  # child: generate
     args = ap.parse_args()
@@ -161,12 +170,13 @@ def main() -> None:
         print(json.dumps(read_once(args.read, args.chunk_rows, args.hysteresis_bar)))
         return
     if args.make:
-        make_trace(args.make, args.rows, args.rate_hz)
+        make_trace(args.make, args.rows, args.rate_hz, args.timestamps)
         return
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "trace_1khz.csv"
         t0 = time.perf_counter()
         make = ["--make", str(path), "--rows", str(args.rows), "--rate-hz", str(args.rate_hz)]
+        make += ["--timestamps"] if args.timestamps else []
         subprocess.run([sys.executable, __file__, *make], check=True)
         size_mb = os.path.getsize(path) / 1e6
         print(f"generated {args.rows} rows ({size_mb:.0f} MB) in {time.perf_counter() - t0:.1f} s")
