@@ -128,3 +128,20 @@ def test_errors():
         T.loop_sides_bar([1.0, 2.0], [1.0])
     with pytest.raises(ValueError, match="n_buckets must be an integer >= 1"):
         T.minmax_envelope([0.0], [1.0], 0)
+
+
+def test_against_numpy_histogram():
+    # numpy's weighted histogram uses the same bands: half-open, the last one closed
+    rng = np.random.default_rng(7)
+    t = np.cumsum(rng.uniform(0.001, 0.5, 5000))
+    p = rng.uniform(0.0, 1000.0, 5000)
+    p[:3] = [0.0, 25.0, 1000.0]  # values on edges
+    dt, _ = T.sample_durations_s(t, max_gap_s=0.4)
+    edges = T.band_edges()
+    ref, _ = np.histogram(p, bins=edges, weights=dt)
+    np.testing.assert_allclose(T.time_at_pressure_h(p, dt, edges) * 3600, ref, rtol=1e-12)
+    speed = rng.uniform(0.0, 3000.0, 5000)
+    s_edges = T.band_edges(width=500.0, top=3000.0)
+    ref2, _, _ = np.histogram2d(p, speed, bins=[edges, s_edges], weights=dt)
+    got = T.time_at_pressure_speed_h(p, speed, dt, edges, s_edges) * 3600
+    np.testing.assert_allclose(got, ref2, rtol=1e-12, atol=1e-12)
