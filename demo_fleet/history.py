@@ -45,6 +45,12 @@ SILENT_DAYS = 42
 BACKLOG_GAP_DAYS = 90
 """A unit with due roles gets no automatic rebuild in the days before its last
 role rebuild [d], so its service history does not show two rebuilds in a row."""
+FIELD_B10 = {"DS-P46": 1.0, "DS-P90": 0.35, "DS-M110": 1.0}
+"""B10 of the consumed bearing life at which a component of each model really fails [-]
+(invented field behaviour): 1.0 means the rating is right; DS-P90 pumps built with a batch
+of undersized swashplate saddle bushes fail at about a third of their rated life."""
+FIELD_SHAPE = 1.5
+"""Weibull shape of those field failures [-] (invented)."""
 RATE_WINDOW_H = 500.0
 """Operating hours over which a due role's recent damage rate is taken [h] (the
 ledger's default rate window, DESIGN.md)."""
@@ -82,6 +88,8 @@ class Event:
     """Day of the case-drain check a few days after the rebuild (-1: none)."""
     check_noise: float = 1.0
     """Measurement error of that check's reading of this position [-]."""
+    reason: str = "preventive"
+    """Why the life ended: failure, wear_limit or preventive."""
 
 
 @dataclass
@@ -177,16 +185,30 @@ def _wear_state(pos: PositionHistory, tenths: np.ndarray, start: int) -> np.ndar
     return np.concatenate(([0.0], np.cumsum(rate)[:-1]))
 
 
-def _trigger(pos: PositionHistory, tenths: np.ndarray, start: int, threshold: float) -> int:
-    """First day index from ``start`` on where damage or wear calls for a rebuild, or -1."""
+def _trigger(
+    pos: PositionHistory, tenths: np.ndarray, start: int, threshold: float, fails_at: float
+) -> tuple[int, str]:
+    """First day index from ``start`` on where damage, wear or a failure calls for a
+    rebuild (-1: none), and the reason (preventive, wear_limit or failure)."""
     cum = np.cumsum(pos.damage[start:])
     i_dmg = int(np.searchsorted(cum, threshold))
     q_ratio = pos.offsets[-1] * (1.0 + _wear_state(pos, tenths, start) ** WEAR_EXPONENT)
     limit = pos.model["case_drain"]["limit_factor"] * REBUILD_WEAR
     over = np.flatnonzero(q_ratio >= limit)
     i_wear = int(over[0]) if over.size else cum.size
-    first = min(i_dmg, i_wear)
-    return start + first if first < cum.size else -1
+    i_fail = int(np.searchsorted(cum, fails_at))
+    first, reason = min((i_fail, "failure"), (i_wear, "wear_limit"), (i_dmg, "preventive"))
+    return (start + first, reason) if first < cum.size else (-1, reason)
+
+
+def failure_fraction(model: dict, rng: np.random.Generator) -> float:
+    """Consumed bearing life at which this life of a ``model`` component fails [-].
+
+    Weibull with shape :data:`FIELD_SHAPE` and B10 :data:`FIELD_B10`:
+    scale = B10 / (-ln 0.9) ** (1 / shape).
+    """
+    b10 = FIELD_B10.get(model["name"], 1.0)
+    return float(b10 / (-np.log(0.9)) ** (1.0 / FIELD_SHAPE) * rng.weibull(FIELD_SHAPE))
 
 
 def _apply_downtime(hist: UnitHistory, first: int, days: int) -> None:
@@ -204,6 +226,7 @@ def _rebuild(
     pos: PositionHistory,
     day: int,
     life_start: dict[str, int],
+    reason: str = "preventive",
 ) -> None:
     kind = "replacement" if rng.random() < 0.35 else "rebuild"
     if kind == "replacement":
@@ -212,34 +235,50 @@ def _rebuild(
     same_day = [e.check_day for e in hist.events if e.day == day]
     check = same_day[0] if same_day else check  # one check visit for the unit
     noise = 1.0 + float(rng.normal(0.0, oil_samples.NOISE_SD))
-    hist.events.append(Event(pos.position, day, kind, hour, check, noise))
+    hist.events.append(Event(pos.position, day, kind, hour, check, noise, reason))
     pos.offsets.append(float(rng.uniform(0.9, 1.15)))
     life_start[pos.position] = day
 
 
 def schedule_rebuilds(
-    hist: UnitHistory, rng: np.random.Generator, auto_until: int, forced: list[tuple[int, str]]
+    hist: UnitHistory,
+    rng: np.random.Generator,
+    auto_until: int,
+    forced: list[tuple[int, str]],
+    fail_rng: np.random.Generator | None = None,
 ) -> None:
-    """Rebuild components as the shop would: when consumed life or case drain calls for it.
+    """Rebuild components as the shop would: when consumed life or case drain calls for it,
+    or when the component fails first.
 
     Auto rebuilds are planned 2-8 days after the trigger, stop the machine 1-3 days, and
-    take along another loop that is past ``COMPANION_DAMAGE``; ``forced`` (day, position)
-    events are story rebuilds on given days (one day downtime).
+    take along another loop that is past ``COMPANION_DAMAGE``; a failure (drawn per life
+    from ``fail_rng`` with :func:`failure_fraction`; none without it) is rebuilt the next
+    day. ``forced`` (day, position) events are story rebuilds on given days (one day
+    downtime, reason preventive).
     """
     n = hist.tenths.size
     life_start = {p.position: 0 for p in hist.positions}
     thresholds = {p.position: float(rng.uniform(*REBUILD_DAMAGE)) for p in hist.positions}
+
+    def draw_failure(pos: PositionHistory) -> float:
+        return np.inf if fail_rng is None else failure_fraction(pos.model, fail_rng)
+
+    fails_at = {p.position: draw_failure(p) for p in hist.positions}
     pending = sorted(forced)
     last = -1
     while True:
-        cands = [(d, p, True) for d, p in pending[:1]]
+        cands = [(d, p, True, "preventive") for d, p in pending[:1]]
         for pos in hist.positions:
-            t = _trigger(pos, hist.tenths, life_start[pos.position], thresholds[pos.position])
+            start = life_start[pos.position]
+            t, why = _trigger(
+                pos, hist.tenths, start, thresholds[pos.position], fails_at[pos.position]
+            )
             if 0 <= t < auto_until:
-                cands.append((max(t + int(rng.integers(2, 9)), last + 1), pos.position, False))
+                delay = 1 if why == "failure" else int(rng.integers(2, 9))
+                cands.append((max(t + delay, last + 1), pos.position, False, why))
         if not cands or min(cands)[0] >= n:
             return
-        day, position, is_forced = min(cands)
+        day, position, is_forced, reason = min(cands)
         if is_forced:
             pending.pop(0)
         _apply_downtime(hist, day, 1 if is_forced else int(rng.integers(1, 4)))
@@ -253,8 +292,10 @@ def schedule_rebuilds(
             ]
         for pos in hist.positions:
             if pos.position in done:
-                _rebuild(hist, rng, pos, day, life_start)
+                why = reason if pos.position == position else "preventive"
+                _rebuild(hist, rng, pos, day, life_start, why)
                 thresholds[pos.position] = float(rng.uniform(*REBUILD_DAMAGE))
+                fails_at[pos.position] = draw_failure(pos)
         last = day
 
 
@@ -423,7 +464,8 @@ def simulate_unit(
         pos.offsets = [float(rng.uniform(0.9, 1.15))]
     auto_until, forced = _story_setup(hist, n)
     auto_until, forced = _role_setup(hist, n, auto_until, forced)
-    schedule_rebuilds(hist, rng, auto_until, forced)
+    fail_rng = np.random.default_rng([seed, 80_000 + plan.index])
+    schedule_rebuilds(hist, rng, auto_until, forced, fail_rng)
     _finish_wear_lives(hist)
     if plan.story == "silent":
         hist.upload[max(0, n - SILENT_DAYS) :] = False

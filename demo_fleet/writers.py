@@ -136,6 +136,7 @@ def _service_entries(hist: UnitHistory, days: np.ndarray, meter0_tenths: int) ->
                     "kind": kind,
                     "at": stamp(days[0] - 1, 12),
                     "hour_meter": meter0_tenths / 10,
+                    "reason": "preventive",
                 }
             )
     starts = hist.meter_start_tenths()
@@ -146,6 +147,7 @@ def _service_entries(hist: UnitHistory, days: np.ndarray, meter0_tenths: int) ->
                 "kind": ev.kind,
                 "at": stamp(days[ev.day], ev.hour),
                 "hour_meter": float(starts[ev.day]) / 10.0,
+                "reason": ev.reason,
             }
         )
     return service

@@ -152,6 +152,29 @@ def dashboard_cmd(port: int, host: str, db_url: str) -> None:
         proc.wait(timeout=10)
 
 
+DEMO_CONFIDENCE = 0.90
+"""Two-sided confidence level of the interval in the demo's calibration line [-]."""
+
+
+def _calibration_line(engine) -> str:  # noqa: ANN001
+    """One line naming the calibration finding: the model with the lowest suggested life
+    factor, or why there is none."""
+    table = usecases.calibrate(engine, confidence=DEMO_CONFIDENCE)
+    rows = table[(table["mode"] == "bearing") & table["suggested_life_factor"].notna()]
+    if rows.empty:
+        return "calibration: no component model has enough failures for a life factor yet"
+    row = rows.loc[rows["suggested_life_factor"].astype(float).idxmin()]
+    factor = float(row["suggested_life_factor"])
+    low, high = float(row["suggested_low"]), float(row["suggested_high"])
+    verdict = "fails short of its rating" if factor < 1.0 else "lives up to its rating"
+    return (
+        f"calibration: {row['component_model']} {verdict}: field B10 "
+        f"{factor:.2f} x the rated life ({DEMO_CONFIDENCE:.0%} interval {low:.2f}-{high:.2f}, "
+        f"{row['failures']} failures, {row['suspensions']} suspensions); an estimate, "
+        "the maker's ratings and a qualified engineer decide"
+    )
+
+
 @main.command("demo")
 @click.option(
     "--folder",
@@ -219,7 +242,9 @@ def demo_cmd(
     records = usecases.rank_records(df)[:15]
     emit(_table_rows(records, RANK_TABLE_COLUMNS), "table", RANK_TABLE_COLUMNS)
     _notice()
+    click.echo(f"\n{_calibration_line(engine)}")
     click.echo(f"\nmore: drivespan rank --db {res.db_url} --as-of {res.as_of.isoformat()}")
+    click.echo(f"      drivespan calibrate --db {res.db_url}")
     if no_dashboard:
         return
     from dashboards import launch
