@@ -3,8 +3,10 @@
 from __future__ import annotations
 
 from collections.abc import Iterable
+from typing import TYPE_CHECKING
 
-from monitor.domain.records import Problem
+if TYPE_CHECKING:  # the command line imports this module; it must not pull in numpy
+    from monitor.domain.records import Problem
 
 
 class DomainError(Exception):
