@@ -46,6 +46,7 @@ _WHERE = {
     "ingest_paths": "telemetry",
     "recompute": "telemetry",
     "upload": "telemetry",
+    "upload_path": "telemetry",
 }
 
 __all__ = sorted(_WHERE)

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from monitor.store import db, queries
+from monitor.store import queries
 from monitor.store.db import Engine
-from monitor.usecases.common import DomainError
+from monitor.usecases.common import DomainError, locked_transaction
 from monitor.usecases.status import _unknown_unit
 
 SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
@@ -31,7 +31,7 @@ def add_service_event(
     the last rebuild. Raises DomainError with what to correct.
     """
     event = _checked_event(tag, kind, at, hour_meter, position, new_hour_meter)
-    with db.transaction(engine) as conn:
+    with locked_transaction(engine) as conn:
         unit = queries.unit_id(conn, tag)
         if unit is None:
             raise _unknown_unit(conn, tag)
