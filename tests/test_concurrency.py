@@ -256,6 +256,18 @@ def test_writers_at_once_store_every_histogram_once(db_url, exports, reference, 
     assert_same_ranking(got["rank"], reference["rank"])
 
 
+def test_processes_opening_a_new_store_at_once_create_it_once(db_url, tmp_path):
+    procs, go = start_ready([["init", "--db", db_url]] * 3, tmp_path)
+    go.touch()
+    outs = [p.communicate(timeout=120) for p in procs]
+    assert [p.returncode for p in procs] == [0, 0, 0], outs
+    engine = db.make_engine(db_url)
+    with engine.connect() as conn:
+        versions = conn.execute(text("SELECT version_num FROM alembic_version")).scalars()
+        assert versions.all() == ["0003"]
+    engine.dispose()
+
+
 def test_write_lock_is_held_and_a_waiting_writer_gives_up_cleanly(db_url, exports, monkeypatch):
     """While one transaction holds the store's write lock, another writer waits; past the
     wait limit it gets StoreBusy and wrote nothing; the ingest use case reports that."""

@@ -437,11 +437,21 @@ def alembic_config(url: str):  # noqa: ANN201 - alembic Config
 
 
 def upgrade(engine: Engine) -> None:
-    """Create or upgrade the schema to the newest migration (``alembic upgrade head``)."""
+    """Create or upgrade the schema to the newest migration (``alembic upgrade head``).
+
+    A store already at the newest revision is only read. Otherwise the upgrade runs under
+    the whole store's write lock, so processes that open a new store at the same moment
+    create it once (the others find it done)."""
     from alembic import command
+    from alembic.migration import MigrationContext
+    from alembic.script import ScriptDirectory
 
     cfg = alembic_config(engine.url.render_as_string(hide_password=False))
-    with engine.begin() as conn:
+    head = ScriptDirectory.from_config(cfg).get_current_head()
+    with engine.connect() as conn:
+        if MigrationContext.configure(conn).get_current_revision() == head:
+            return
+    with write_transaction(engine) as conn:
         cfg.attributes["connection"] = conn
         command.upgrade(cfg, "head")
 
