@@ -521,7 +521,9 @@ def test_unique_violation_is_retried_once_then_reported_as_a_conflict(engine, ex
     monkeypatch.setattr(checks, "_check_overlaps", lambda conn, plan, name: None)
     res = usecases.upload_path(engine, copy)
     assert res.status == usecases.REJECTED, res
-    assert "another upload stored overlapping data at the same moment" in str(res.problems[0])
+    message = str(res.problems[0])
+    assert "another upload stored the same rows at the same moment" in message
+    assert "histogram" in message and "store is unchanged" in message
     assert snapshot(engine) == before
 
 

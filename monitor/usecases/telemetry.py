@@ -55,16 +55,18 @@ def _ingest_telemetry(engine: Engine, data: bytes, name: str, dry_run: bool) -> 
     if dry_run:
         with db.transaction(engine) as conn:
             return _check_and_store(conn, parsed, name, dry_run=True)
+    conflict = None
     for attempt in range(1, WRITE_ATTEMPTS + 1):
         try:
             with db.write_transaction(engine, units=_units(parsed)) as conn:
                 return _check_and_store(conn, parsed, name, dry_run=False)
         except db.WriteConflict as err:
             log.warning("%s: write conflict on attempt %d: %s", name, attempt, err)
+            conflict = err
         except db.StoreBusy as err:
             log.warning("%s: %s", name, err)
             return _refused(name, _BUSY.format(s=db.WRITE_LOCK_WAIT_S))
-    return _refused(name, _CONFLICT)
+    return _refused(name, _CONFLICT.format(detail=conflict))
 
 
 def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> FileResult:  # noqa: ANN001
@@ -102,9 +104,10 @@ _INTERNAL = (
     "the details are in the log: please report it together with the file"
 )
 _CONFLICT = (
-    "another upload stored overlapping data at the same moment and this file could not be "
-    "checked against it: nothing from it was stored and the store is unchanged; ingest "
-    "the file again (data already stored is then skipped)"
+    "the file's rows break the store's rule that each histogram and reading is stored once "
+    "({detail}): either another upload stored the same rows at the same moment, or the file "
+    "repeats a histogram or reading. Nothing from it was stored and the store is unchanged; "
+    "check the file for repeated rows and ingest it again (rows already stored are skipped)"
 )
 _BUSY = (
     "the store stayed busy with another upload for more than {s} s: nothing from this file "
