@@ -8,6 +8,7 @@ written (an upload or saved settings). No widgets are built in here.
 
 from __future__ import annotations
 
+import logging
 import os
 import sys
 from dataclasses import dataclass
@@ -26,6 +27,21 @@ MAX_UPLOAD_MB = 50
 MAX_UPLOAD_BYTES = MAX_UPLOAD_MB * 1024 * 1024
 FRAME_TTL_S = 600
 """How long a cached frame may be reused before it is read again [s]."""
+
+
+def _log_to_server_console() -> None:
+    """drivespan's warnings and internal errors (with tracebacks) go to the server's
+    console (stderr of ``drivespan dashboard``), never to the page; added once."""
+    logger = logging.getLogger("monitor")
+    if not any(getattr(h, "drivespan_console", False) for h in logger.handlers):
+        handler = logging.StreamHandler(sys.stderr)
+        handler.drivespan_console = True
+        handler.setFormatter(logging.Formatter("%(asctime)s %(name)s %(levelname)s %(message)s"))
+        logger.addHandler(handler)
+        logger.setLevel(logging.WARNING)
+
+
+_log_to_server_console()
 
 
 def db_url() -> str | None:
@@ -192,7 +208,9 @@ def clear() -> None:
 
 
 def upload(url: str | None, payload: bytes, name: str) -> usecases.FileResult:
-    """Store one uploaded file through usecases.upload; clear the caches if it changed data."""
+    """Store one uploaded file through usecases.upload (the same path as ``drivespan
+    ingest``: any error of the file becomes its refusal, logged to the server console);
+    clear the caches if it changed data."""
     if len(payload) > MAX_UPLOAD_BYTES:
         size = len(payload) / 1024 / 1024
         problem = Problem(

@@ -31,6 +31,11 @@ plan; pure), :mod:`monitor.exports`, :mod:`monitor.store` (all SQL),
 from __future__ import annotations
 
 import importlib
+import logging
+
+# A library logs, the application decides where to: without this, Python would print
+# drivespan's warnings and tracebacks on stderr when the application configures nothing.
+logging.getLogger(__name__).addHandler(logging.NullHandler())
 
 _API = {
     "open_store": ("monitor.usecases.common", "init_db"),

@@ -161,6 +161,31 @@ def test_upload_broken_file_is_rejected_with_its_line_and_stores_nothing(store):
     assert counts(store) == before
 
 
+def test_upload_internal_error_is_that_files_refusal_and_the_next_is_stored(store, monkeypatch):
+    from monitor.ingest import parse
+
+    real = parse.parse_file
+
+    def fails_for_one(data, name):  # noqa: ANN001, ANN202 - a parser fault, simulated
+        if name == "trips.csv":
+            raise RecursionError("maximum recursion depth exceeded")
+        return real(data, name)
+
+    monkeypatch.setattr(parse, "parse_file", fails_for_one)
+    before = counts(store)
+    at = start("upload")
+    at.file_uploader[0].set_value(
+        [("trips.csv", fx.good_upload(), "text/csv"), ("next.csv", fx.good_upload(), "text/csv")]
+    ).run()
+    at.button(key="upload_go").click().run()
+    assert not at.exception
+    assert list(at.dataframe[0].value["Result"]) == ["rejected", "accepted"]
+    problem = " ".join(str(v) for v in at.table[0].value["Problem"])
+    assert "internal error" in problem and "store is unchanged" in problem
+    assert "Traceback" not in problem
+    assert counts(store)["upload_file"] == before["upload_file"] + 1
+
+
 def test_upload_too_large_is_rejected_in_code(store, monkeypatch):
     from dashboards import data
 

@@ -57,3 +57,70 @@ def test_url_resolution(monkeypatch):
     assert db.resolve_url("sqlite:///y.db") == "sqlite:///y.db"
     # a plain path is a SQLite file
     assert db.resolve_url("/tmp/fleet.db") == "sqlite:////tmp/fleet.db"
+
+
+def test_migration_0003_removes_second_copies_and_makes_them_impossible(db_url):
+    """A store at 0002 with a histogram upload stored twice (as concurrent ingests
+    without the write lock did): upgrading removes the copy, sums the running totals
+    again, and the unique index refuses a new copy."""
+    from pathlib import Path
+
+    import pandas as pd
+    from sqlalchemy import exc, select
+
+    from monitor import usecases
+
+    data = Path(__file__).parent / "data"
+    engine = usecases.init_db(db_url)
+    usecases.import_registry(engine, (data / "fleet.yaml").read_bytes(), "fleet.yaml")
+    for name in ("hist_pressure.csv", "hist_pressure_speed.csv"):
+        assert usecases.upload(engine, (data / name).read_bytes(), name).status == "accepted"
+    with engine.connect() as conn:
+        want = pd.read_sql_query(select(db.ledger).order_by(db.ledger.c.id), conn)
+        n_hist = conn.execute(text("SELECT count(*) FROM histogram")).scalar()
+    engine.dispose()
+    command.downgrade(db.alembic_config(db_url), "0002")
+    engine = db.make_engine(db_url)
+    with engine.begin() as conn:
+        _store_a_second_copy(conn)
+        assert conn.execute(text("SELECT count(*) FROM histogram")).scalar() == 2 * n_hist
+    engine.dispose()
+    engine = usecases.init_db(db_url)  # upgrade head
+    with engine.connect() as conn:
+        assert conn.execute(text("SELECT count(*) FROM histogram")).scalar() == n_hist
+        assert conn.execute(text("SELECT count(*) FROM upload WHERE file_id = 99")).scalar() == 0
+        got = pd.read_sql_query(select(db.ledger).order_by(db.ledger.c.id), conn)
+    # the copies' ledger rows are gone and the running totals are those of one copy
+    pd.testing.assert_frame_equal(got, want, rtol=1e-12)
+    with pytest.raises(exc.IntegrityError):
+        with engine.begin() as conn:
+            _store_a_second_copy(conn)
+    engine.dispose()
+
+
+def _store_a_second_copy(conn) -> None:  # noqa: ANN001
+    """Every stored upload again, under file id 99, with its histograms and ledger rows
+    (running totals copied as a racing writer computed them)."""
+    from datetime import UTC, datetime
+
+    from sqlalchemy import select
+
+    conn.execute(
+        db.upload_file.insert().values(
+            id=99, sha256="9" * 64, name="copy.csv", received_at=datetime.now(UTC),
+            n_histograms=0, n_readings=0,
+        )
+    )  # fmt: skip
+    uploads = conn.execute(select(db.upload).where(db.upload.c.file_id != 99)).mappings().all()
+    for up in uploads:
+        new = conn.execute(
+            db.upload.insert().values({**_without_id(up), "file_id": 99})
+        ).inserted_primary_key[0]
+        for table in (db.histogram, db.ledger):
+            rows = conn.execute(select(table).where(table.c.upload_id == up["id"])).mappings()
+            for row in rows.all():
+                conn.execute(table.insert().values({**_without_id(row), "upload_id": new}))
+
+
+def _without_id(row) -> dict:  # noqa: ANN001
+    return {k: v for k, v in row.items() if k != "id"}

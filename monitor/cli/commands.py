@@ -104,7 +104,7 @@ def ingest_cmd(paths: tuple[Path, ...], dry_run: bool, db_url: str) -> None:
     results = []
     with click.progressbar(files, label="ingesting", file=sys.stderr) as bar:
         for path in bar:
-            results.append(usecases.upload(engine, path.read_bytes(), path.name, dry_run=dry_run))
+            results.append(usecases.upload_path(engine, path, dry_run=dry_run))
     rejected = _print_results(results)
     if rejected:
         sys.exit(1)

@@ -58,14 +58,38 @@ def domain_errors(f: Callable) -> Callable:
     return wrapper
 
 
+LOG_FILE_ENV = "DRIVESPAN_LOG_FILE"
+
+
 @click.group()
 @click.version_option(package_name="drivespan")
-def main() -> None:
+@click.option(
+    "--log-file",
+    type=click.Path(dir_okay=False, writable=True),
+    envvar=LOG_FILE_ENV,
+    help="Append drivespan's warnings and internal errors (with their tracebacks) to this "
+    "file; also $DRIVESPAN_LOG_FILE. Without it they are not shown.",
+)
+def main(log_file: str | None) -> None:
     """drivespan: drive-life estimates for fleets of closed-loop hydrostatic drives.
 
     Its numbers are estimates. The makers' service limits, local codes and qualified
     technicians decide; pressurised hydraulic systems are dangerous to work on.
     """
+    if log_file:
+        _log_to(log_file)
+
+
+def _log_to(path: str) -> None:
+    """Send the ``monitor`` loggers' warnings and errors to a file (appended)."""
+    import logging
+
+    handler = logging.FileHandler(path, encoding="utf-8", delay=True)
+    layout = "%(asctime)s %(process)d %(name)s %(levelname)s %(message)s"
+    handler.setFormatter(logging.Formatter(layout))
+    logger = logging.getLogger("monitor")
+    logger.addHandler(handler)
+    logger.setLevel(logging.WARNING)
 
 
 def _print_results(results: list) -> int:

@@ -10,8 +10,9 @@ hours as little-endian float64 blobs (see :func:`pack` / :func:`unpack`).
 
 from __future__ import annotations
 
+import hashlib
 import os
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
@@ -32,6 +33,8 @@ from sqlalchemy import (
     UniqueConstraint,
     create_engine,
     event,
+    exc,
+    text,
 )
 from sqlalchemy.engine import Connection
 
@@ -174,7 +177,10 @@ histogram = Table(
     Column("total_hours", Float, nullable=False),
     Column("mean_speed_rpm", Float),
     Column("content_sha256", String(64), nullable=False),
-    Index("ix_histogram_component_period", "component_id", "quantity", "period_start"),
+    # Stored periods of one component and quantity never overlap, so no two start at the
+    # same instant: the index is unique, the last line of defence against a histogram
+    # stored twice (the checks at ingest run under the write lock, see write_transaction).
+    Index("ix_histogram_component_period", "component_id", "quantity", "period_start", unique=True),
 )
 
 reading = Table(
@@ -278,6 +284,10 @@ def resolve_url(url: str | None = None) -> str:
     return url
 
 
+SQLITE_BUSY_TIMEOUT_MS = 30_000
+"""SQLite's busy timeout outside :func:`write_transaction` [ms] (readers, schema)."""
+
+
 def make_engine(url: str | None = None) -> Engine:
     """Engine for ``url``; SQLite gets WAL, foreign keys and a busy timeout."""
     url = resolve_url(url)
@@ -286,7 +296,7 @@ def make_engine(url: str | None = None) -> Engine:
     elif url.startswith("postgresql://"):
         url = "postgresql+psycopg://" + url[len("postgresql://") :]
     if url.startswith("sqlite"):
-        engine = create_engine(url, connect_args={"timeout": 30})
+        engine = create_engine(url, connect_args={"timeout": SQLITE_BUSY_TIMEOUT_MS / 1000})
         event.listen(engine, "connect", _sqlite_pragmas)
         return engine
     return create_engine(url, pool_pre_ping=True)
@@ -296,7 +306,7 @@ def _sqlite_pragmas(dbapi_conn, _record) -> None:  # noqa: ANN001 - DBAPI hook
     cur = dbapi_conn.cursor()
     cur.execute("PRAGMA journal_mode=WAL")
     cur.execute("PRAGMA foreign_keys=ON")
-    cur.execute("PRAGMA busy_timeout=30000")
+    cur.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
     cur.execute("PRAGMA synchronous=NORMAL")
     cur.close()
 
@@ -308,15 +318,131 @@ def transaction(engine: Engine) -> Iterator[Connection]:
         yield conn
 
 
+# --- the write lock -------------------------------------------------------------------
+
+WRITE_LOCK_WAIT_S = 300
+"""Longest wait for the store's write lock [s] before a writer gives up with
+:class:`StoreBusy`. Another process's ingest of a large file holds the lock for its
+whole transaction (about 2 s per million bands on the benchmark machine), so the wait
+is generous; it keeps a writer from waiting without end on a stuck one (common
+practice, no source)."""
+LOCK_NAMESPACE_STORE = 0x6472_7600
+"""PostgreSQL advisory lock space of the whole store (first key of the two-key form;
+the bytes spell "drv")."""
+LOCK_NAMESPACE_UNIT = 0x6472_7601
+"""PostgreSQL advisory lock space of single units (second key: a hash of the tag)."""
+
+
+class WriteConflict(Exception):
+    """A write broke one of the store's unique rules (another writer stored the same rows
+    first, or the data repeats a row) or PostgreSQL chose it as a deadlock or
+    serialisation victim. Its transaction was rolled back; nothing of it was stored."""
+
+
+class StoreBusy(Exception):
+    """The store's write lock was not granted within :data:`WRITE_LOCK_WAIT_S`; nothing
+    was written."""
+
+
+@contextmanager
+def write_transaction(engine: Engine, units: Iterable[str] | None = None) -> Iterator[Connection]:
+    """A transaction that holds the store's write lock from its first statement on.
+
+    Checks made inside it (is this file stored, does a period overlap a stored one, do
+    hour meters run on, what are a component's running totals) stay true until the
+    commit, so check-then-insert is atomic even with many writers in many processes.
+
+    SQLite: ``BEGIN IMMEDIATE`` takes the database's write lock before the first read
+    (readers are not blocked in WAL mode). PostgreSQL: transaction-level advisory locks
+    (released at commit or rollback) taken first: with ``units`` (the unit tags the
+    transaction writes), the store's lock shared and one lock per unit, in a fixed order,
+    so ingests of different units run side by side; without, the store's lock exclusive
+    (registry import, recompute, service events).
+
+    Raises :class:`WriteConflict` for a unique-rule violation (the transaction is rolled
+    back) and :class:`StoreBusy` when the lock is not granted within
+    :data:`WRITE_LOCK_WAIT_S`.
+    """
+    dbapi = engine.dialect.loaded_dbapi
+    try:
+        with engine.begin() as conn:
+            _take_write_lock(conn, units)
+            yield conn
+    except (exc.DBAPIError, dbapi.Error) as err:
+        # bulk writes use the driver's cursor: its errors come unwrapped
+        orig = getattr(err, "orig", err)
+        first_line = str(orig).splitlines()[0] if str(orig) else type(orig).__name__
+        kind = "conflict" if isinstance(orig, dbapi.IntegrityError) else None
+        if isinstance(orig, dbapi.OperationalError):
+            kind = _lock_failure(orig)
+        if kind == "conflict":
+            raise WriteConflict(first_line) from err
+        if kind == "busy":
+            raise StoreBusy(
+                f"the store's write lock was not granted within {WRITE_LOCK_WAIT_S} s"
+            ) from err
+        raise
+
+
+def _take_write_lock(conn: Connection, units: Iterable[str] | None) -> None:
+    dialect = conn.dialect.name
+    if dialect == "sqlite":
+        # The sqlite3 module begins a transaction only before its first INSERT, UPDATE
+        # or DELETE (SQLAlchemy's begin() sends nothing), so the reads before would run
+        # outside any lock: begin explicitly, taking the write lock at once.
+        conn.exec_driver_sql(f"PRAGMA busy_timeout = {int(WRITE_LOCK_WAIT_S * 1000)}")
+        try:
+            conn.exec_driver_sql("BEGIN IMMEDIATE")
+        finally:
+            conn.exec_driver_sql(f"PRAGMA busy_timeout = {SQLITE_BUSY_TIMEOUT_MS}")
+    elif dialect == "postgresql":
+        conn.execute(
+            text("SELECT set_config('lock_timeout', :t, true)"),
+            {"t": f"{int(WRITE_LOCK_WAIT_S * 1000)}ms"},
+        )
+        lock = "SELECT pg_advisory_xact_lock{}(CAST(:ns AS integer), CAST(:key AS integer))"
+        if units is None:
+            conn.execute(text(lock.format("")), {"ns": LOCK_NAMESPACE_STORE, "key": 0})
+            return
+        conn.execute(text(lock.format("_shared")), {"ns": LOCK_NAMESPACE_STORE, "key": 0})
+        for key in sorted({unit_lock_key(u) for u in units}):
+            conn.execute(text(lock.format("")), {"ns": LOCK_NAMESPACE_UNIT, "key": key})
+
+
+def unit_lock_key(tag: str) -> int:
+    """A signed 32-bit key of a unit tag for PostgreSQL's advisory locks (two tags that
+    share a key only wait for each other)."""
+    digest = hashlib.blake2b(tag.encode("utf-8"), digest_size=4).digest()
+    return int.from_bytes(digest, "big", signed=True)
+
+
+def _lock_failure(orig: Exception) -> str | None:
+    """For a driver's OperationalError: "busy" for a lock wait that timed out,
+    "conflict" for a deadlock or serialisation victim, None for anything else."""
+    state = getattr(orig, "sqlstate", None)
+    if state == "55P03":  # lock_not_available (lock_timeout)
+        return "busy"
+    if state in ("40P01", "40001"):  # deadlock_detected, serialization_failure
+        return "conflict"
+    name = getattr(orig, "sqlite_errorname", "") or ""
+    if name.startswith("SQLITE_BUSY") or "database is locked" in str(orig):
+        return "busy"
+    return None
+
+
 def migrations_dir() -> Path:
     """Folder of the Alembic environment: ``migrations/`` of the source tree, installed
-    as the package ``monitor.migrations``. Run from a source checkout, the checkout's own
-    folder wins (an editable install elsewhere must not supply another tree's revisions)."""
+    as the package ``monitor.migrations``.
+
+    When this module runs from a source tree (``migrations/env.py`` beside the
+    ``monitor`` package and a ``pyproject.toml``), that tree's folder is used, so that a
+    checkout on ``PYTHONPATH`` never runs the migrations of another, installed checkout.
+    """
     from importlib.resources import files
 
-    checkout = Path(__file__).resolve().parents[2] / "migrations"
-    if (checkout / "env.py").is_file():
-        return checkout
+    tree = Path(__file__).resolve().parents[2]
+    if (tree / "pyproject.toml").is_file() and (tree / "migrations" / "env.py").is_file():
+        return tree / "migrations"
     return Path(str(files("monitor.migrations")))
 
 
@@ -330,11 +456,21 @@ def alembic_config(url: str):  # noqa: ANN201 - alembic Config
 
 
 def upgrade(engine: Engine) -> None:
-    """Create or upgrade the schema to the newest migration (``alembic upgrade head``)."""
+    """Create or upgrade the schema to the newest migration (``alembic upgrade head``).
+
+    A store already at the newest revision is only read. Otherwise the upgrade runs under
+    the whole store's write lock, so processes that open a new store at the same moment
+    create it once (the others find it done)."""
     from alembic import command
+    from alembic.migration import MigrationContext
+    from alembic.script import ScriptDirectory
 
     cfg = alembic_config(engine.url.render_as_string(hide_password=False))
-    with engine.begin() as conn:
+    head = ScriptDirectory.from_config(cfg).get_current_head()
+    with engine.connect() as conn:
+        if MigrationContext.configure(conn).get_current_revision() == head:
+            return
+    with write_transaction(engine) as conn:
         cfg.attributes["connection"] = conn
         command.upgrade(cfg, "head")
 

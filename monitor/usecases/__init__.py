@@ -59,6 +59,7 @@ _WHERE = {
     "ingest_paths": "telemetry",
     "recompute": "telemetry",
     "upload": "telemetry",
+    "upload_path": "telemetry",
 }
 
 __all__ = sorted(_WHERE)

@@ -21,9 +21,9 @@ import pandas as pd
 from monitor.fleet import calibration as cal
 from monitor.fleet.lives import component_lives
 from monitor.ledger.batch_metrics import batch_metrics
-from monitor.store import db, ledger_rows, life_reads, rating_changes
+from monitor.store import ledger_rows, life_reads, rating_changes
 from monitor.store.db import Engine
-from monitor.usecases.common import DomainError
+from monitor.usecases.common import DomainError, locked_transaction
 
 calibration_records = cal.table_records
 """Rows of a :func:`calibrate` table as plain dicts (NaN as None), ready for JSON."""
@@ -181,7 +181,7 @@ def accept_life_factor(
     if not (math.isfinite(change["factor_new"]) and change["factor_new"] > 0):
         raise DomainError(f"the suggested factor for {model} is not a positive number")
     summary = json.dumps({k: change[k] for k in change if k != "component_model"})
-    with db.transaction(engine) as conn:
+    with locked_transaction(engine) as conn:
         model_id = rating_changes.model_ids(conn)[model]
         when = rating_changes.insert(conn, model_id, change["factor_new"], proposed_by, summary)
         ledger_rows.recompute(conn, batch_metrics)
@@ -194,7 +194,7 @@ def undo_life_factor(engine: Engine, model: str) -> dict:
     Returns ``component_model, undone_factor, accepted_at, factor_now`` (the factor in
     force afterwards, 1.0 for none). Raises DomainError when none is in force.
     """
-    with db.transaction(engine) as conn:
+    with locked_transaction(engine) as conn:
         _check_names(conn, model, None)
         model_id = rating_changes.model_ids(conn)[model]
         undone = rating_changes.undo_latest(conn, model_id)

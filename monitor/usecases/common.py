@@ -7,6 +7,8 @@ rejected upload leaves the store exactly as it was.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
 
@@ -49,6 +51,23 @@ def init_db(url: str | None = None) -> Engine:
     engine = db.make_engine(url)
     db.upgrade(engine)
     return engine
+
+
+@contextmanager
+def locked_transaction(engine: Engine) -> Iterator[db.Connection]:
+    """A transaction holding the whole store's write lock (registry import, recompute,
+    service events); a lock not granted in time or a unique-rule conflict with another
+    writer becomes a :class:`DomainError` saying to try again (nothing was written)."""
+    try:
+        with db.write_transaction(engine) as conn:
+            yield conn
+    except db.StoreBusy as err:
+        raise DomainError(f"{err}: nothing was changed; try again in a moment") from None
+    except db.WriteConflict:
+        raise DomainError(
+            "another process changed the same data at the same moment: nothing was "
+            "changed; try again"
+        ) from None
 
 
 def _today() -> date:

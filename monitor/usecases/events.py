@@ -5,9 +5,9 @@ from __future__ import annotations
 from datetime import UTC, datetime
 
 from monitor.domain.vocabulary import SERVICE_REASONS
-from monitor.store import db, queries
+from monitor.store import queries
 from monitor.store.db import Engine
-from monitor.usecases.common import DomainError
+from monitor.usecases.common import DomainError, locked_transaction
 from monitor.usecases.status import _unknown_unit
 
 SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
@@ -35,7 +35,7 @@ def add_service_event(
     """
     event = _checked_event(tag, kind, at, hour_meter, position, new_hour_meter)
     _check_reason(kind, reason)
-    with db.transaction(engine) as conn:
+    with locked_transaction(engine) as conn:
         unit = queries.unit_id(conn, tag)
         if unit is None:
             raise _unknown_unit(conn, tag)

@@ -6,9 +6,9 @@ import hashlib
 
 from monitor.ingest import registry
 from monitor.ledger.batch_metrics import batch_metrics
-from monitor.store import db, ledger_rows, queries
+from monitor.store import ledger_rows, queries
 from monitor.store.db import Engine
-from monitor.usecases.common import DomainError
+from monitor.usecases.common import DomainError, locked_transaction
 
 REGISTRY_SUFFIXES = (".yaml", ".yml")
 
@@ -20,7 +20,7 @@ def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.Ups
     if problems or reg is None:
         raise DomainError(f"{name}: registry rejected, {len(problems)} problem(s)", problems)
     sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
-    with db.transaction(engine) as conn:
+    with locked_transaction(engine) as conn:
         counts = queries.upsert_registry(conn, reg)
         queries.save_registry_document(conn, sha, name, text)
         if counts.created or counts.updated:

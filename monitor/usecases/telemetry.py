@@ -1,10 +1,20 @@
-"""Use cases of telemetry: validate and store exports, ingest folders, recompute the ledger."""
+"""Use cases of telemetry: validate and store exports, ingest folders, recompute the ledger.
+
+Every file is handled on its own. Its checks against the store and its writes run in one
+transaction under the store's write lock (:func:`monitor.store.db.write_transaction`), so
+files ingested at the same moment by several processes count once, exactly as one after
+the other. Whatever goes wrong with one file, that file is refused with a message and
+the next one is handled: an unexpected error is logged with its traceback (logger
+``monitor.usecases.telemetry``) and reported as the file's refusal, never raised.
+"""
 
 from __future__ import annotations
 
+import logging
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
+from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
 from monitor.ingest import parse, registry
 from monitor.ledger.batch_metrics import batch_metrics
@@ -17,57 +27,145 @@ from monitor.usecases.common import (
     VALID,
     DomainError,
     FileResult,
+    locked_transaction,
 )
 from monitor.usecases.registry import REGISTRY_SUFFIXES, import_registry
 
 TELEMETRY_SUFFIXES = (".csv", ".json", ".txt")
+WRITE_ATTEMPTS = 2
+"""Tries of one file's transaction when it breaks a unique rule of the store (another
+writer stored the same rows first despite the lock, e.g. on a database without one): the
+second try sees the other writer's rows and skips them or refuses the file."""
+
+log = logging.getLogger(__name__)
 
 
 def ingest_bytes(engine: Engine, data: bytes, name: str, *, dry_run: bool = False) -> FileResult:
-    """Validate one telemetry file and, unless ``dry_run``, store it with its ledger rows."""
+    """Validate one telemetry file and, unless ``dry_run``, store it with its ledger rows.
+
+    Never raises for a bad file or a fault of ours: every outcome is a :class:`FileResult`
+    (see :func:`upload`)."""
+    return _isolated(name, "telemetry", lambda: _ingest_telemetry(engine, data, name, dry_run))
+
+
+def _ingest_telemetry(engine: Engine, data: bytes, name: str, dry_run: bool) -> FileResult:
     parsed = parse.parse_file(data, name)
     if parsed.problems:
         return FileResult(name, REJECTED, problems=tuple(parsed.problems))
-    with db.transaction(engine) as conn:
-        if queries.file_stored(conn, parsed.content_sha256):
-            return FileResult(name, DUPLICATE)
-        plan = checks.plan_upload(conn, parsed)
-        if plan.problems:
-            return FileResult(name, REJECTED, problems=tuple(plan.problems))
-        result = FileResult(
-            name,
-            VALID if dry_run else ACCEPTED,
-            histograms=plan.n_histograms,
-            readings=len(plan.readings),
-            skipped=plan.skipped,
+    if dry_run:
+        with db.transaction(engine) as conn:
+            return _check_and_store(conn, parsed, name, dry_run=True)
+    conflict = None
+    for attempt in range(1, WRITE_ATTEMPTS + 1):
+        try:
+            with db.write_transaction(engine, units=_units(parsed)) as conn:
+                return _check_and_store(conn, parsed, name, dry_run=False)
+        except db.WriteConflict as err:
+            log.warning("%s: write conflict on attempt %d: %s", name, attempt, err)
+            conflict = err
+        except db.StoreBusy as err:
+            log.warning("%s: %s", name, err)
+            return _refused(name, _BUSY.format(s=db.WRITE_LOCK_WAIT_S))
+    return _refused(name, _CONFLICT.format(detail=conflict))
+
+
+def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> FileResult:  # noqa: ANN001
+    """The checks against the store and, unless ``dry_run``, the writes (one transaction)."""
+    if queries.file_stored(conn, parsed.content_sha256):
+        return FileResult(name, DUPLICATE)
+    plan = checks.plan_upload(conn, parsed)
+    if plan.problems:
+        return FileResult(name, REJECTED, problems=tuple(plan.problems))
+    result = FileResult(
+        name,
+        VALID if dry_run else ACCEPTED,
+        histograms=plan.n_histograms,
+        readings=len(plan.readings),
+        skipped=plan.skipped,
+    )
+    if not dry_run:
+        file_id = queries.insert_file(
+            conn, parsed.content_sha256, name, plan.n_histograms, len(plan.readings)
         )
-        if not dry_run:
-            file_id = queries.insert_file(
-                conn, parsed.content_sha256, name, plan.n_histograms, len(plan.readings)
-            )
-            ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
+        ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
     return result
 
 
+def _units(parsed: ParsedFile) -> set[str]:
+    """Tags of the units a parsed file writes to (histograms and readings)."""
+    return {str(u) for u in parsed.histogram_batch().unit.tolist()} | {
+        r.unit for r in parsed.readings
+    }
+
+
+_INTERNAL = (
+    "internal error while handling this file ({error}): nothing from it was stored and the "
+    "store is unchanged. This is a fault in drivespan, not a problem found in the file; "
+    "the details are in the log: please report it together with the file"
+)
+_CONFLICT = (
+    "the file's rows break the store's rule that each histogram and reading is stored once "
+    "({detail}): either another upload stored the same rows at the same moment, or the file "
+    "repeats a histogram or reading. Nothing from it was stored and the store is unchanged; "
+    "check the file for repeated rows and ingest it again (rows already stored are skipped)"
+)
+_BUSY = (
+    "the store stayed busy with another upload for more than {s} s: nothing from this file "
+    "was stored and the store is unchanged; ingest it again when the other upload is done"
+)
+
+
+def _refused(name: str, message: str, kind: str = "telemetry") -> FileResult:
+    return FileResult(
+        name, REJECTED, problems=(Problem(name, None, None, None, message),), kind=kind
+    )
+
+
+def _isolated(name: str, kind: str, work: Callable[[], FileResult]) -> FileResult:
+    """``work()``, or the file's refusal when it raises anything unexpected (logged with
+    its traceback). A transaction open at the error has been rolled back."""
+    try:
+        return work()
+    except Exception as err:  # one file's fault must not stop the others
+        log.exception("%s: unexpected error while handling the file", name)
+        return _refused(name, _INTERNAL.format(error=type(err).__name__), kind)
+
+
 def upload(engine: Engine, data: bytes, name: str, *, dry_run: bool = False) -> FileResult:
-    """One uploaded file of any kind: a registry (.yaml/.yml) or telemetry export."""
+    """One uploaded file of any kind: a registry (.yaml/.yml) or telemetry export.
+
+    Never raises for the file: a bad file is refused with its problems, and an
+    unexpected error becomes the file's refusal (logged with its traceback)."""
     if name.lower().endswith(REGISTRY_SUFFIXES):
-        if dry_run:
-            _, problems = registry.load_registry(data.decode("utf-8", "replace"), name)
-            status = REJECTED if problems else VALID
-            return FileResult(name, status, problems=tuple(problems), kind="registry")
-        try:
-            counts = import_registry(engine, data, name)
-        except DomainError as err:
-            return FileResult(name, REJECTED, problems=err.problems, kind="registry")
-        except UnicodeDecodeError:
-            msg = "file is not UTF-8 text: save the registry as UTF-8 and upload it again"
-            return FileResult(
-                name, REJECTED, problems=(Problem(name, None, None, None, msg),), kind="registry"
-            )
-        status = ACCEPTED if (counts.created or counts.updated) else DUPLICATE
-        return FileResult(name, status, kind="registry")
+        return _isolated(name, "registry", lambda: _upload_registry(engine, data, name, dry_run))
     return ingest_bytes(engine, data, name, dry_run=dry_run)
+
+
+def _upload_registry(engine: Engine, data: bytes, name: str, dry_run: bool) -> FileResult:
+    if dry_run:
+        _, problems = registry.load_registry(data.decode("utf-8", "replace"), name)
+        status = REJECTED if problems else VALID
+        return FileResult(name, status, problems=tuple(problems), kind="registry")
+    try:
+        counts = import_registry(engine, data, name)
+    except DomainError as err:
+        return FileResult(name, REJECTED, problems=err.problems, kind="registry")
+    except UnicodeDecodeError:
+        msg = "file is not UTF-8 text: save the registry as UTF-8 and upload it again"
+        return _refused(name, msg, "registry")
+    status = ACCEPTED if (counts.created or counts.updated) else DUPLICATE
+    return FileResult(name, status, kind="registry")
+
+
+def upload_path(engine: Engine, path: str | Path, *, dry_run: bool = False) -> FileResult:
+    """:func:`upload` of a file on disk; a file that cannot be read is refused."""
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except OSError as err:
+        msg = f"file cannot be read ({err.strerror or type(err).__name__}): nothing was stored"
+        return _refused(path.name, msg)
+    return upload(engine, data, path.name, dry_run=dry_run)
 
 
 def expand_paths(paths: Iterable[str | Path]) -> list[Path]:
@@ -90,16 +188,18 @@ def ingest_paths(
     dry_run: bool = False,
     progress: Callable[[Path], None] | None = None,
 ) -> list[FileResult]:
-    """Ingest files and folders, one transaction per file."""
+    """Ingest files and folders, one transaction per file; every file gets its result."""
     results = []
     for path in expand_paths(paths):
-        results.append(upload(engine, path.read_bytes(), path.name, dry_run=dry_run))
+        results.append(upload_path(engine, path, dry_run=dry_run))
         if progress is not None:
             progress(path)
     return results
 
 
 def recompute(engine: Engine, progress: Callable[[int, int], None] | None = None) -> int:
-    """Rebuild the whole damage ledger from the stored histograms; return its row count."""
-    with db.transaction(engine) as conn:
+    """Rebuild the whole damage ledger from the stored histograms; return its row count.
+
+    Holds the store's write lock, so no upload is stored meanwhile."""
+    with locked_transaction(engine) as conn:
         return ledger_rows.recompute(conn, batch_metrics, progress=progress)
