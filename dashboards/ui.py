@@ -29,6 +29,7 @@ FLAG_WORDS = {
     "case_drain_step": "case-drain step",
     "heavy_relief": "heavy relief use",
     "few_wear_readings": "few drain readings",
+    "wear_readings_off_reference": "drain readings off test conditions",
 }
 
 TABLE_COLUMNS = {

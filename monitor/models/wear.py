@@ -119,6 +119,85 @@ def normalise_case_drain_lpm(
     return q
 
 
+REFERENCE_TEMP_DISTANCE_K = 20.0
+"""Default largest distance of a reading's oil temperature from the reference test
+temperature for it to join the trend [K] (common practice, no source)."""
+
+REFERENCE_DP_RATIO = (0.5, 2.0)
+"""Default range of the test-pressure ratio dp_t / dp_ref for a reading to join the trend
+[-] (common practice, no source)."""
+
+
+def off_reference(
+    test_dp_bar: float | np.ndarray,
+    oil_temp_c: float | np.ndarray,
+    *,
+    ref_dp_bar: float | None,
+    ref_temp_c: float | None,
+    max_temp_distance_k: float = REFERENCE_TEMP_DISTANCE_K,
+    dp_ratio_range: tuple[float, float] = REFERENCE_DP_RATIO,
+) -> np.ndarray:
+    """Readings taken too far from the reference test conditions to be trended.
+
+    Parameters
+    ----------
+    test_dp_bar : float or array
+        Pressure difference during the test dp_t [bar]; nan: not recorded.
+    oil_temp_c : float or array
+        Oil temperature during the test T [degC]; nan: not recorded.
+    ref_dp_bar, ref_temp_c : float or None
+        Model's reference test pressure [bar] and oil temperature [degC]; None: that
+        condition is not checked.
+    max_temp_distance_k : float, default 20
+        Largest ``|T - T_ref|`` of a reading that is trended [K].
+    dp_ratio_range : tuple of float, default (0.5, 2)
+        Range of ``dp_t / dp_ref`` of a reading that is trended [-].
+
+    Returns
+    -------
+    numpy.ndarray of bool
+        True where ``|T - T_ref| > max_temp_distance_k`` or ``dp_t / dp_ref`` lies outside
+        ``dp_ratio_range``; a condition not recorded counts as within.
+
+    Raises
+    ------
+    ValueError
+        If the distance is not positive or the ratio range does not hold 1.
+
+    Notes
+    -----
+    Normalising (:func:`normalise_case_drain_lpm`) multiplies a reading by
+    ``(dp_ref / dp_t) (nu(T) / nu(T_ref))``; far from the reference the laminar-leakage
+    law and the viscosity line carry the whole answer (a reading at 5 degC in ISO VG 46
+    oil is multiplied by about 13 to reach 50 degC), so such readings are shown but not
+    trended. The limits are a rule of this project (common practice, no source).
+
+    References
+    ----------
+    ASTM D341-20 for the viscosity line; F. M. White, Fluid Mechanics, 7th ed.,
+    McGraw-Hill 2011, plane Poiseuille flow (section from memory).
+    """
+    if not (np.isfinite(max_temp_distance_k) and max_temp_distance_k > 0):
+        raise ValueError(
+            f"max_temp_distance_k must be a temperature distance > 0 K, got {max_temp_distance_k!r}"
+        )
+    lo, hi = (float(v) for v in dp_ratio_range)
+    if not (0 < lo <= 1 <= hi < np.inf):
+        raise ValueError(
+            f"dp_ratio_range must be (low, high) with 0 < low <= 1 <= high, got {dp_ratio_range!r}"
+        )
+    dp = np.asarray(test_dp_bar, dtype=float)
+    temp = np.asarray(oil_temp_c, dtype=float)
+    off = np.zeros(np.broadcast(dp, temp).shape, bool)
+    with np.errstate(invalid="ignore"):
+        if ref_temp_c is not None:
+            off |= np.abs(temp - float(ref_temp_c)) > max_temp_distance_k
+        if ref_dp_bar is not None:
+            ratio = dp / float(ref_dp_bar)
+            off |= (ratio < lo) | (ratio > hi)
+    return off
+
+
 def clearance_ratio(leakage_ratio: float | np.ndarray) -> np.ndarray:
     """Gap growth implied by a leakage ratio at equal pressure and viscosity.
 
