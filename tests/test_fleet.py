@@ -381,3 +381,18 @@ def test_flag_lists_are_separate_per_row():
     assert s["flags"].tolist() == [[fleet.FLAG_FEW], [fleet.FLAG_FEW]]
     s["flags"].iloc[0].append("x")  # one row's list is its own
     assert s["flags"].iloc[1] == [fleet.FLAG_FEW]
+
+
+def test_unit_summary_names_the_settings_used():
+    row = healthy()
+    row.update(m_case_drain_test_dp_bar=250.0, m_case_drain_test_temp_c=50.0)
+    pts = [(1000, 1.0, 250.0, 50.0), (1400, 1.4, 250.0, 50.0), (1800, 1.8, 250.0, 50.0)]
+    rd = _conditioned(1, [*pts, (1900, 1.9, 250.0, 5.0)])
+    s = status(row, rd=rd)
+    lines = fleet.unit_summary(s, fleet.StatusParams())
+    text = "\n".join(lines)
+    assert "1 case-drain reading(s) taken more than 20 K" in text
+    assert "outside 0.5-2 times" in text
+    assert "3 trended case-drain readings give a wear trend but no 95 % range" in text
+    wide = fleet.unit_summary(s, fleet.StatusParams(case_drain_temp_distance_k=25.0))
+    assert "more than 25 K" in "\n".join(wide)

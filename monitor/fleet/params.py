@@ -42,6 +42,8 @@ EXTRA_COLUMNS = (
     "case_drain_slope_lpm_per_h",
     "cutoff_hours",
     "has_cutoff",
+    "n_wear_readings",
+    "n_wear_readings_off",
 )
 """Further columns of the status frame (dashboard detail), after the rank keys."""
 
