@@ -317,3 +317,26 @@ def test_remaining_wear_batch_equals_scalar():
     want = np.array([wear.remaining_wear_h(3.0, *c) for c in cases])
     np.testing.assert_array_equal(got, want)
     assert wear.remaining_wear_h_batch(*(np.zeros(0),) * 5).shape == (0, 3)
+
+
+def test_off_reference_readings():
+    # Why the limit exists: normalising a reading at 5 degC in ISO VG 46 (VI 100) oil to a
+    # 50 degC reference multiplies it by nu(5)/nu(50), about 13 (ASTM D341 line).
+    q = wear.normalise_case_drain_lpm(1.0, 250.0, 5.0, ref_dp_bar=250.0, ref_temp_c=50.0,
+                                      oil_line=VG46)  # fmt: skip
+    assert 12.0 < float(q) < 14.0
+    kw = dict(ref_dp_bar=250.0, ref_temp_c=50.0)
+    dp = np.array([250.0, 250.0, 250.0, 125.0, 124.0, 500.0, 501.0, np.nan, np.nan])
+    temp = np.array([50.0, 70.0, 70.5, 50.0, 50.0, 50.0, 50.0, np.nan, 29.0])
+    # 20 K and 0.5-2 are inclusive limits; a condition not recorded counts as within
+    want = [False, False, True, False, True, False, True, False, True]
+    np.testing.assert_array_equal(wear.off_reference(dp, temp, **kw), want)
+    wide = wear.off_reference(dp, temp, **kw, max_temp_distance_k=25.0, dp_ratio_range=(0.4, 3))
+    np.testing.assert_array_equal(wide, [False] * 9)
+    none = wear.off_reference(dp, temp, ref_dp_bar=None, ref_temp_c=None)
+    assert not none.any() and none.shape == (9,)
+    assert wear.off_reference(250.0, 5.0, **kw).shape == ()
+    with pytest.raises(ValueError, match="max_temp_distance_k must be"):
+        wear.off_reference(dp, temp, **kw, max_temp_distance_k=0.0)
+    with pytest.raises(ValueError, match="dp_ratio_range must be"):
+        wear.off_reference(dp, temp, **kw, dp_ratio_range=(1.5, 2.0))
