@@ -265,8 +265,15 @@ def trend_frame(
 
 def _reading_traces(fig: go.Figure, readings: pd.DataFrame) -> None:
     used = readings["used"].astype(bool) if "used" in readings else pd.Series(True, readings.index)
+    off = (
+        readings["off_reference"].astype(bool)
+        if "off_reference" in readings
+        else pd.Series(False, readings.index)
+    )
     for mask, name, style in (
-        (used, "reading (this life)", {"color": TREND, "size": 8}),
+        (used & ~off, "reading (this life)", {"color": TREND, "size": 8}),
+        (used & off, "reading off test conditions (not trended)",
+         {"color": "#D98A1C", "symbol": "diamond-open", "size": 9}),
         (~used, "reading (before rebuild)", {"color": "#B8C2CC", "symbol": "circle-open"}),
     ):  # fmt: skip
         part = readings[mask]
@@ -278,12 +285,13 @@ def _reading_traces(fig: go.Figure, readings: pd.DataFrame) -> None:
 
 
 def _trend_traces(fig: go.Figure, line: pd.DataFrame) -> None:
-    fig.add_scatter(
-        x=list(line["hour_meter"]) + list(line["hour_meter"][::-1]),
-        y=list(line["high_lpm"]) + list(line["low_lpm"][::-1]),
-        fill="toself", fillcolor=BAND, line={"width": 0}, hoverinfo="skip",
-        name="95 % slope interval",
-    )  # fmt: skip
+    if line["low_lpm"].notna().any():  # no band when the readings are too few for one
+        fig.add_scatter(
+            x=list(line["hour_meter"]) + list(line["hour_meter"][::-1]),
+            y=list(line["high_lpm"]) + list(line["low_lpm"][::-1]),
+            fill="toself", fillcolor=BAND, line={"width": 0}, hoverinfo="skip",
+            name="95 % slope interval",
+        )  # fmt: skip
     fig.add_scatter(
         x=line["hour_meter"], y=line["fitted_lpm"], mode="lines", name="Theil–Sen trend",
         line={"color": TREND, "width": 2},
@@ -298,7 +306,8 @@ def case_drain_figure(
 ) -> go.Figure:
     """Normalised case-drain flow [L/min] against hour meter [h] with trend and limit.
 
-    ``readings``: hour_meter, normalised_lpm, used (False: before the last rebuild);
+    ``readings``: hour_meter, normalised_lpm, used (False: before the last rebuild),
+    optionally off_reference (True: taken far from the test conditions, not trended);
     ``line``: a :func:`trend_frame`; ``crossing_h``: projected hour meter at the limit.
     """
     fig = go.Figure()

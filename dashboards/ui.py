@@ -29,6 +29,7 @@ FLAG_WORDS = {
     "case_drain_step": "case-drain step",
     "heavy_relief": "heavy relief use",
     "few_wear_readings": "few drain readings",
+    "wear_readings_off_reference": "drain readings off test conditions",
 }
 
 TABLE_COLUMNS = {
@@ -261,6 +262,8 @@ def trend_line(detail: object, row: pd.Series | None) -> tuple[pd.DataFrame | No
     if trend is None or readings.empty or pd.isna(trend.slope):
         return None, None
     used = readings[readings["used"].astype(bool)] if "used" in readings else readings
+    if "off_reference" in used:
+        used = used[~used["off_reference"].astype(bool)]
     used = used.dropna(subset=["hour_meter", "normalised_lpm"])
     if used.empty:
         return None, None

@@ -46,16 +46,43 @@ def test_bad_bearing_type():
 
 @pytest.mark.parametrize("pct, expected", A1_TABLE)
 def test_a1_table(pct, expected):
-    # ISO 281:2007, reliability factor table (printed to 2 significant figures)
-    assert float(b.reliability_factor(pct)) == pytest.approx(expected, abs=0.005)
+    # ISO 281:2007, reliability factor table: the printed value itself at a table point
+    assert float(b.reliability_factor(pct)) == expected
+
+
+@pytest.mark.parametrize(
+    "pct, expected",
+    # hand-computed from a1 = 0.95 (ln(100/S) / ln(100/90))^(2/3) + 0.05 (ISO 281:2007):
+    # 92.5 %: ln(100/92.5) / ln(100/90) = 0.73995, ^(2/3) = 0.81809 -> 0.8272;
+    # 99.5 %: ln(100/99.5) / ln(100/90) = 0.047575, ^(2/3) = 0.13130 -> 0.1747;
+    # 99.93 %: ln(100/99.93) / ln(100/90) = 0.0066462, ^(2/3) = 0.035349 -> 0.08358
+    [(92.5, 0.8272), (99.5, 0.1747), (99.93, 0.08358)],
+)
+def test_a1_between_table_points_closed_form(pct, expected):
+    got = float(b.reliability_factor(pct))
+    assert got == pytest.approx(expected, abs=2e-4)
+    # and it lies between the printed neighbours
+    below = max(a for p, a in A1_TABLE if p < pct)
+    above = min(a for p, a in A1_TABLE if p > pct)
+    assert above < got < below
+
+
+def test_a1_table_points_are_the_closed_form_rounded():
+    # ISO 281:2007 prints the closed form to two significant figures: the printed value
+    # and the formula differ by at most half a unit of the last printed digit.
+    for pct, printed in A1_TABLE:
+        exact = 0.95 * (np.log(100 / pct) / np.log(100 / 90)) ** (2 / 3) + 0.05
+        digit = 10 ** (np.floor(np.log10(printed)) - 1)
+        assert abs(exact - printed) <= 0.5 * digit + 1e-12, pct
 
 
 def test_a1_vectorised_and_identity():
-    pcts = np.array([p for p, _ in A1_TABLE])
+    pcts = np.array([p for p, _ in A1_TABLE] + [92.5, 99.5])
     vec = b.reliability_factor(pcts)
     assert vec[0] == 1.0  # ISO 281: a1 = 1 at 90 %
-    np.testing.assert_allclose(vec, [float(b.reliability_factor(p)) for p in pcts])
-    assert np.all(np.diff(vec) < 0)
+    np.testing.assert_array_equal(vec, [float(b.reliability_factor(p)) for p in pcts])
+    np.testing.assert_array_equal(vec[: len(A1_TABLE)], [a for _, a in A1_TABLE])
+    assert np.all(np.diff(vec[: len(A1_TABLE)]) < 0)
 
 
 @pytest.mark.parametrize("pct", [89.9, 99.96, 100.0, float("nan")])

@@ -147,6 +147,21 @@ def test_case_drain_figure_draws_limit_trend_band_and_crossing():
     assert fig.layout.yaxis.title.text.endswith("[L/min]")
 
 
+def test_case_drain_figure_marks_off_reference_readings_and_drops_an_empty_band():
+    # a reading far from the test conditions is drawn on its own, not as a trended one;
+    # a trend with no slope interval (too few readings) gets no band
+    readings = pd.DataFrame(
+        {"hour_meter": [100.0, 400.0, 500.0, 700.0], "normalised_lpm": [1.2, 1.35, 9.0, 1.5],
+         "used": [True, True, True, True], "off_reference": [False, False, True, False]}
+    )  # fmt: skip
+    nan = float("nan")
+    line = charts.trend_frame(0.0005, 1.15, nan, nan, 400.0, 1.35, 100.0, 2700.0)
+    fig = charts.case_drain_figure(readings, limit_lpm=2.8, line=line)
+    assert list(trace(fig, "reading (this life)").x) == [100.0, 400.0, 700.0]
+    assert list(trace(fig, "reading off test conditions (not trended)").x) == [500.0]
+    assert "95 % slope interval" not in [t.name for t in fig.data]
+
+
 def test_case_drain_figure_without_trend_or_limit():
     readings = pd.DataFrame({"hour_meter": [1.0], "normalised_lpm": [1.0], "used": [True]})
     fig = charts.case_drain_figure(readings, limit_lpm=None)

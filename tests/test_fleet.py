@@ -235,12 +235,34 @@ def test_stale_flag_after_stale_days():
 def test_case_drain_step_flag():
     # earlier readings on the line 1.0 + 0.001 (H - 1000): fitted level at 1900 h is 1.9;
     # the latest 3.0 > 1.5 * 1.9 = 2.85 -> step. 2.8 is not.
-    base = [(1000, 1.0), (1300, 1.3), (1600, 1.6)]
+    base = [(1000, 1.0), (1200, 1.2), (1400, 1.4), (1600, 1.6)]
     step = status(healthy(), rd=readings(1, [*base, (1900, 3.0)])).iloc[0]
     calm = status(healthy(), rd=readings(1, [*base, (1900, 2.8)])).iloc[0]
     assert "case_drain_step" in step["flags"]
     assert "case_drain_step" not in calm["flags"]
     assert "few_wear_readings" not in step["flags"]
+    # at least 4 readings before the step (the default): 3 earlier readings give no flag,
+    # and neither does a median of them any more
+    short = status(healthy(), rd=readings(1, [*base[1:], (1900, 3.0)])).iloc[0]
+    assert "case_drain_step" not in short["flags"]
+    assert (
+        fleet.case_drain_step(
+            np.array([1200.0, 1400, 1600, 1900]),
+            np.array([1.2, 1.4, 1.6, 3.0]),
+            fleet.StatusParams(),
+        )
+        is False
+    )
+    three = fleet.StatusParams(case_drain_step_min_before=3)
+    assert (
+        "case_drain_step"
+        in status(
+            healthy(), rd=readings(1, [*base[1:], (1900, 3.0)]), case_drain_step_min_before=3
+        ).iloc[0]["flags"]
+    )
+    assert three.step_min_before == 3
+    # never fewer than a trend needs
+    assert fleet.StatusParams(min_wear_readings=6).step_min_before == 6
 
 
 def test_heavy_relief_flag_only_without_cutoff():
@@ -254,11 +276,60 @@ def test_heavy_relief_flag_only_without_cutoff():
 
 def test_few_wear_readings_flag():
     two = status(healthy(), rd=readings(1, [(1000, 1.0), (1500, 1.5)])).iloc[0]
-    three = status(healthy(), rd=readings(1, [(1000, 1.0), (1500, 1.5), (1800, 1.8)])).iloc[0]
+    pts = [(1000, 1.0), (1500, 1.5), (1800, 1.8), (1900, 1.92), (1950, 1.94)]
+    three = status(healthy(), rd=readings(1, pts[:3])).iloc[0]
+    four = status(healthy(), rd=readings(1, pts[:4])).iloc[0]
+    five = status(healthy(), rd=readings(1, pts)).iloc[0]
     no_limit = status(healthy(limit_lpm=None)).iloc[0]
     assert "few_wear_readings" in two["flags"]
-    assert "few_wear_readings" not in three["flags"]
+    # 3 and 4 readings give a trend but no 95 % range (the widest interval covers
+    # 1 - 2/3! = 67 % and 1 - 2/4! = 92 %, Sen 1968): the flag stays and the range is null
+    for r in (three, four):
+        assert "few_wear_readings" in r["flags"]
+        assert r["remaining_wear_h"] > 0
+        assert math.isnan(r["remaining_wear_h_low"]) and math.isnan(r["remaining_wear_h_high"])
+    # 5 readings: 1 - 2/5! = 98 %, a range at 95 %
+    assert "few_wear_readings" not in five["flags"]
+    assert five["remaining_wear_h_low"] <= five["remaining_wear_h"] <= five["remaining_wear_h_high"]
     assert "few_wear_readings" not in no_limit["flags"]  # no limit: no wear estimate anyway
+
+
+def _conditioned(cid: int, points: list[tuple[float, float, float, float]]) -> pd.DataFrame:
+    """Readings (hour meter, flow, test pressure, oil temperature)."""
+    rd = readings(cid, [(p[0], p[1]) for p in points])
+    rd["test_pressure_bar"] = [p[2] for p in points]
+    rd["oil_temp_c"] = [p[3] for p in points]
+    return rd
+
+
+def test_readings_off_reference_are_kept_out_of_the_trend_and_flagged():
+    # Model tested at 250 bar and 50 degC. Readings on the line 1.0 + 0.001 (H - 1000) at
+    # the reference, one taken at 5 degC (45 K off) and one at 100 bar (ratio 0.4); both
+    # would be normalised to nonsense and are left out. Oil without a viscosity line so
+    # the trended readings are used as measured (hand-computed level 2.0 at 2000 h).
+    row = healthy()
+    row.update(m_case_drain_test_dp_bar=250.0, m_case_drain_test_temp_c=50.0)
+    row.update(oil_iso_vg=None, oil_viscosity_index=None)
+    on = [(h, 1.0 + 0.001 * (h - 1000), 250.0, 52.0) for h in (1000, 1200, 1400, 1600, 1800)]
+    rd = _conditioned(1, [*on, (1850, 0.3, 250.0, 5.0), (1900, 5.0, 100.0, 50.0)])
+    r = status(row, rd=rd).iloc[0]
+    assert "wear_readings_off_reference" in r["flags"]
+    assert "case_drain_step" not in r["flags"]  # the odd last reading is not trended
+    assert r["case_drain_level_lpm"] == pytest.approx(2.0)
+    assert r["remaining_wear_h"] == pytest.approx(1000.0)
+    clean = status(row, rd=_conditioned(1, on)).iloc[0]
+    assert "wear_readings_off_reference" not in clean["flags"]
+    # a wider distance takes the cold reading back in (a pressure ratio 0.4 still out)
+    wide = status(row, rd=rd, case_drain_temp_distance_k=50.0).iloc[0]
+    assert wide["case_drain_level_lpm"] != pytest.approx(2.0)
+    w = fleet.wear_frame(inputs(row), rd, fleet.StatusParams(case_drain_temp_distance_k=50.0))
+    assert w["n_wear_readings"].iat[0] == 6 and w["n_wear_readings_off"].iat[0] == 1
+    w = fleet.wear_frame(inputs(row), rd, fleet.StatusParams(case_drain_dp_ratio_min=0.3))
+    assert w["n_wear_readings"].iat[0] == 6 and w["n_wear_readings_off"].iat[0] == 1
+    # only off readings: kept, counted, no trend
+    only_off = _conditioned(1, [(1000, 1.0, 250.0, 5.0), (1200, 1.1, 250.0, 90.0)])
+    w = fleet.wear_frame(inputs(row), only_off, fleet.StatusParams())
+    assert w["n_wear_readings"].iat[0] == 0 and w["n_wear_readings_off"].iat[0] == 2
 
 
 def test_wear_limits_and_ordering():
@@ -310,3 +381,18 @@ def test_flag_lists_are_separate_per_row():
     assert s["flags"].tolist() == [[fleet.FLAG_FEW], [fleet.FLAG_FEW]]
     s["flags"].iloc[0].append("x")  # one row's list is its own
     assert s["flags"].iloc[1] == [fleet.FLAG_FEW]
+
+
+def test_unit_summary_names_the_settings_used():
+    row = healthy()
+    row.update(m_case_drain_test_dp_bar=250.0, m_case_drain_test_temp_c=50.0)
+    pts = [(1000, 1.0, 250.0, 50.0), (1400, 1.4, 250.0, 50.0), (1800, 1.8, 250.0, 50.0)]
+    rd = _conditioned(1, [*pts, (1900, 1.9, 250.0, 5.0)])
+    s = status(row, rd=rd)
+    lines = fleet.unit_summary(s, fleet.StatusParams())
+    text = "\n".join(lines)
+    assert "1 case-drain reading(s) taken more than 20 K" in text
+    assert "outside 0.5-2 times" in text
+    assert "3 trended case-drain readings give a wear trend but no 95 % range" in text
+    wide = fleet.unit_summary(s, fleet.StatusParams(case_drain_temp_distance_k=25.0))
+    assert "more than 25 K" in "\n".join(wide)

@@ -201,7 +201,14 @@ def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) ->
     for row in inputs.to_dict("records"):
         rd = readings[readings["component_id"] == row["component_id"]]
         limit = fleet.case_drain_limit_lpm(row)
-        vals, step = (np.nan,) * 5, False
+        vals, step, n_off = (np.nan,) * 6, False, 0
+        if not rd.empty:
+            off = fleet.readings_off_reference(
+                rd["test_pressure_bar"].to_numpy(float), rd["oil_temp_c"].to_numpy(float),
+                row, params,
+            ) & rd["case_drain_lpm"].notna().to_numpy()  # fmt: skip
+            n_off = int(off.sum())
+            rd = rd[~off]
         if not rd.empty:
             x = rd["hour_meter"].to_numpy(float)
             y = fleet.normalised_case_drain(
@@ -212,7 +219,8 @@ def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) ->
                 fleet.oil_viscosity_line(row),
             )
             vals, step = wear_status._wear_one(x, y, limit, row, params)
-        rows.append((*vals, len(rd), np.nan if limit is None else limit, step))
+        short = not np.isnan(vals[1]) and np.isnan(vals[5])
+        rows.append((*vals[:5], len(rd), n_off, short, np.nan if limit is None else limit, step))
     cols = [
         "case_drain_level_lpm",
         "case_drain_slope_lpm_per_h",
@@ -220,6 +228,8 @@ def _wear_one_at_a_time(inputs: pd.DataFrame, readings: pd.DataFrame, params) ->
         "remaining_wear_h_low",
         "remaining_wear_h_high",
         "n_wear_readings",
+        "n_wear_readings_off",
+        "wear_range_short",
         "case_drain_limit_lpm",
         "case_drain_step",
     ]
@@ -237,14 +247,20 @@ def test_batched_wear_trends_equal_one_at_a_time(demo_store, min_readings):
     engine.dispose()
     # a step in one series and ties in another, so both branches are compared
     readings = readings.copy()
-    first = readings["component_id"].iloc[0]
+    first = readings["component_id"].value_counts().index[0]  # the longest series
     last_of_first = readings.index[readings["component_id"] == first][-1]
     readings.loc[last_of_first, "case_drain_lpm"] *= 3.0
     second = readings.index[readings["component_id"] != first][:4]
     readings.loc[second, "hour_meter"] = readings.loc[second[0], "hour_meter"]
+    # readings far from the test conditions (cold oil, low test pressure) in a third series
+    third = readings.index[~readings["component_id"].isin(readings.loc[second, "component_id"])]
+    third = third[readings.loc[third, "component_id"] != first][:3]
+    readings.loc[third[:2], "oil_temp_c"] = -10.0
+    readings.loc[third[2], "test_pressure_bar"] = 5.0
     got = fleet.wear_frame(inputs, readings, params)
     want = _wear_one_at_a_time(inputs, readings, params)
     assert got["case_drain_step"].any() and got["remaining_wear_h"].notna().any()
+    assert got["n_wear_readings_off"].sum() >= 3 and got["wear_range_short"].dtype == bool
     pd.testing.assert_frame_equal(got[want.columns], want, check_dtype=False, rtol=0, atol=0)
 
 

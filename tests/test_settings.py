@@ -100,6 +100,13 @@ def test_reliability_range_end_points_are_accepted(engine, pct):
         ({"case_drain_step_factor": 1.0}, "case_drain_step_factor"),
         ({"heavy_relief_fraction": 1.0}, "heavy_relief_fraction"),
         ({"reliabilty_pct": 95.0}, "reliabilty_pct"),  # misspelt: unknown key
+        ({"case_drain_step_min_before": 2}, "case_drain_step_min_before"),
+        ({"case_drain_step_min_before": 4.5}, "case_drain_step_min_before"),
+        ({"case_drain_temp_distance_k": 0}, "case_drain_temp_distance_k"),
+        ({"case_drain_temp_distance_k": "far"}, "case_drain_temp_distance_k"),
+        ({"case_drain_dp_ratio_min": 1.5}, "case_drain_dp_ratio_min"),  # must hold 1
+        ({"case_drain_dp_ratio_max": 0.8}, "case_drain_dp_ratio_max"),
+        ({"case_drain_dp_ratio_min": -0.5}, "case_drain_dp_ratio_min"),
     ],
 )
 def test_invalid_status_setting_names_the_field_and_changes_nothing(engine, values, field):
@@ -109,6 +116,20 @@ def test_invalid_status_setting_names_the_field_and_changes_nothing(engine, valu
         usecases.save_settings(engine, values)
     assert stored(engine) == before_raw
     assert usecases.get_settings(engine) == before
+
+
+def test_wear_reference_settings_reach_the_status_params(engine):
+    # defaults: 20 K, 0.5-2 (common practice, no source), step after 4 readings
+    now = usecases.save_settings(
+        engine, {"case_drain_temp_distance_k": 30, "case_drain_dp_ratio_max": 3.0}
+    )
+    assert now["case_drain_temp_distance_k"] == 30.0 and now["case_drain_dp_ratio_max"] == 3.0
+    assert now["case_drain_dp_ratio_min"] == 0.5 and now["case_drain_step_min_before"] == 4
+    from monitor.usecases.settings import _params_for
+
+    p = _params_for(engine, None, None)
+    assert (p.case_drain_temp_distance_k, p.case_drain_dp_ratio_max) == (30.0, 3.0)
+    assert p.case_drain_step_min_before == 4 and p.case_drain_dp_ratio_min == 0.5
 
 
 def test_the_error_says_what_is_expected(engine):

@@ -53,7 +53,8 @@ def test_clearance_ratio():
 
 @pytest.mark.parametrize("seed", range(8))
 def test_theil_sen_matches_scipy(seed):
-    # Oracle: scipy.stats.theilslopes (Sen 1968 interval), on data with and without ties
+    # Oracle: scipy.stats.theilslopes for slope and intercept, on data with and without
+    # ties; the interval is the exact one (tests below), scipy's is the normal approximation
     rng = np.random.default_rng(seed)
     n = int(rng.integers(3, 40))
     x = rng.uniform(0, 3000, n) if seed % 2 else rng.integers(0, 10, n).astype(float) * 100
@@ -64,12 +65,90 @@ def test_theil_sen_matches_scipy(seed):
         x[0] += 1.0
     ref = stats.theilslopes(y, x, alpha=0.95, method="separate")
     got = wear.theil_sen(x, y, alpha=0.95)
-    np.testing.assert_allclose(
-        got, [ref.slope, ref.intercept, ref.low_slope, ref.high_slope], rtol=1e-12, atol=1e-15
+    np.testing.assert_allclose(got[:2], [ref.slope, ref.intercept], rtol=1e-12, atol=1e-15)
+
+
+def _ranks(x: np.ndarray, y: np.ndarray, values: tuple) -> list[int]:
+    """Positions of interval ends among the sorted pairwise slopes (pairs with x_i < x_j)."""
+    i, j = np.triu_indices(x.size, 1)
+    ok = x[i] != x[j]
+    slopes = np.sort((y[j] - y[i])[ok] / (x[j] - x[i])[ok])
+    return [int(np.flatnonzero(slopes == v)[0]) for v in values]
+
+
+@pytest.mark.parametrize("n", [40, 60, 90])
+def test_interval_agrees_with_scipy_for_many_readings(n):
+    # For many readings the exact interval and scipy.stats.theilslopes' normal
+    # approximation (Sen 1968) aim at the same order statistics: the same ranks, or one apart
+    rng = np.random.default_rng(n)
+    x = rng.uniform(0, 3000, n)
+    y = 1.5 + 4e-4 * x + rng.normal(0, 0.2, n)
+    ref = stats.theilslopes(y, x, alpha=0.95, method="separate")
+    got = wear.theil_sen(x, y, alpha=0.95)
+    mine = _ranks(x, y, got[2:])
+    theirs = _ranks(x, y, (ref.low_slope, ref.high_slope))
+    assert all(abs(a - b) <= 1 for a, b in zip(mine, theirs, strict=True))
+
+
+def test_interval_hand_computed_four_and_five_readings():
+    # Hand-computed (Sen 1968; Hollander, Wolfe and Chicken 2014, ch. 9): x = 0..4,
+    # y = 0, 2, 3, 7, 8; the ten pairwise slopes sorted are 1, 1, 1.5, 2, 2, 2, 7/3, 2.5,
+    # 2.5, 4, median 2. Five readings: at 95 % only the widest interval holds the level
+    # (P(K = 0) = 1/120, P(K <= 1) = 5/120 > 0.025): [S_(1), S_(10)] = [1, 4]; at 90 %
+    # [S_(2), S_(9)] = [1, 2.5].
+    x, y = np.arange(5.0), np.array([0.0, 2, 3, 7, 8])
+    assert wear.theil_sen(x, y, 0.95)[0] == 2.0
+    assert wear.theil_sen(x, y, 0.95)[2:] == (1.0, 4.0)
+    assert wear.theil_sen(x, y, 0.90)[2:] == (1.0, 2.5)
+    # Four readings (slopes 1, 1.5, 2, 7/3, 2.5, 4): the widest interval covers
+    # 1 - 2/24 = 0.917, so no 95 % interval, and [1, 4] at 90 %
+    slope, _, low, high = wear.theil_sen(x[:4], y[:4], 0.95)
+    assert slope == pytest.approx((2 + 7 / 3) / 2) and math.isnan(low) and math.isnan(high)
+    assert wear.theil_sen(x[:4], y[:4], 0.90)[2:] == (1.0, 4.0)
+    # the trend keeps the point estimate and gives no range
+    t = wear.case_drain_trend(x[:4] * 100, 1 + y[:4] / 100, limit_lpm=2.0)
+    assert t.remaining_h > 0 and math.isnan(t.remaining_h_low) and math.isnan(t.remaining_h_high)
+
+
+MC_REPS = 2000
+"""Replications per sample size of the coverage Monte Carlo."""
+
+
+def _coverage_samples(rng, n: int, slope: float) -> tuple[list, list]:
+    x = rng.uniform(0, 3000, (MC_REPS, n))
+    # normal errors for half the samples, Cauchy for the other half: the interval is
+    # distribution-free, so heavy tails must not lower its coverage
+    e = np.where(np.arange(MC_REPS)[:, None] % 2 == 0, 0.2, 0.05) * np.where(
+        np.arange(MC_REPS)[:, None] % 2 == 0,
+        rng.standard_normal((MC_REPS, n)),
+        rng.standard_cauchy((MC_REPS, n)),
     )
-    ref90 = stats.theilslopes(y, x, alpha=0.90)
-    got90 = wear.theil_sen(x, y, alpha=0.90)
-    assert got90[2:] == pytest.approx((ref90.low_slope, ref90.high_slope), rel=1e-12)
+    return list(x), list(1.2 + slope * x + e)
+
+
+def test_interval_coverage_monte_carlo():
+    # Seeded Monte Carlo, 3 to 30 readings: the 95 % interval either holds its level or is
+    # not claimed. Margin: with R = 2000 replications the observed coverage of a true 0.95
+    # has a binomial standard error sqrt(0.95 * 0.05 / R) = 0.0049; 3.5 of them (0.017)
+    # make a false alarm at one sample size about 2.3e-4 likely (normal approximation to
+    # the binomial), 0.7 % over the 28 sizes, while the old normal-approximation interval
+    # (about 0.67 at 3 readings and 0.92 at 4, checked below) fails it.
+    level, slope = 0.95, 4e-4
+    margin = 3.5 * math.sqrt(level * (1 - level) / MC_REPS)
+    rng = np.random.default_rng(20261212)
+    for n in range(3, 31):
+        xs, ys = _coverage_samples(rng, n, slope)
+        fit = wear.theil_sen_batch(xs, ys, level)
+        claimed = ~np.isnan(fit[:, 2]) & ~np.isnan(fit[:, 3])
+        if n <= 4:  # 1 - 2/n! < 0.95: never a range
+            assert not claimed.any(), n
+            old = [stats.theilslopes(y, x, alpha=level) for x, y in zip(xs, ys, strict=True)]
+            old_cov = np.mean([r.low_slope <= slope <= r.high_slope for r in old])
+            assert old_cov < level - margin, (n, old_cov)  # the check has teeth
+            continue
+        assert claimed.all(), n
+        covered = (fit[:, 2] <= slope) & (slope <= fit[:, 3])
+        assert covered.mean() >= level - margin, (n, covered.mean())
 
 
 def test_theil_sen_errors():
@@ -119,7 +198,8 @@ def test_trend_edges():
     past = wear.case_drain_trend([0.0, 100.0, 200.0], [3.5, 3.4, 3.3], limit_lpm=3.0)
     assert past.remaining_h == 0.0 and past.remaining_h_high == 0.0
     # rising, but lower slope bound not positive: upper end of the range unbounded
-    noisy = wear.case_drain_trend([0.0, 100.0, 200.0, 300.0], [1.0, 1.3, 1.0, 1.4], limit_lpm=3.0)
+    h6 = [0.0, 100.0, 200.0, 300.0, 400.0, 500.0]
+    noisy = wear.case_drain_trend(h6, [1.0, 1.3, 1.0, 1.4, 1.0, 1.5], limit_lpm=3.0)
     assert noisy.slope > 0 and noisy.slope_low <= 0 and math.isinf(noisy.remaining_h_high)
     with pytest.raises(ValueError, match="limit_lpm must be a flow > 0"):
         wear.case_drain_trend([0.0, 1.0, 2.0], [1.0, 1.0, 1.0], limit_lpm=0.0)
@@ -237,3 +317,26 @@ def test_remaining_wear_batch_equals_scalar():
     want = np.array([wear.remaining_wear_h(3.0, *c) for c in cases])
     np.testing.assert_array_equal(got, want)
     assert wear.remaining_wear_h_batch(*(np.zeros(0),) * 5).shape == (0, 3)
+
+
+def test_off_reference_readings():
+    # Why the limit exists: normalising a reading at 5 degC in ISO VG 46 (VI 100) oil to a
+    # 50 degC reference multiplies it by nu(5)/nu(50), about 13 (ASTM D341 line).
+    q = wear.normalise_case_drain_lpm(1.0, 250.0, 5.0, ref_dp_bar=250.0, ref_temp_c=50.0,
+                                      oil_line=VG46)  # fmt: skip
+    assert 12.0 < float(q) < 14.0
+    kw = dict(ref_dp_bar=250.0, ref_temp_c=50.0)
+    dp = np.array([250.0, 250.0, 250.0, 125.0, 124.0, 500.0, 501.0, np.nan, np.nan])
+    temp = np.array([50.0, 70.0, 70.5, 50.0, 50.0, 50.0, 50.0, np.nan, 29.0])
+    # 20 K and 0.5-2 are inclusive limits; a condition not recorded counts as within
+    want = [False, False, True, False, True, False, True, False, True]
+    np.testing.assert_array_equal(wear.off_reference(dp, temp, **kw), want)
+    wide = wear.off_reference(dp, temp, **kw, max_temp_distance_k=25.0, dp_ratio_range=(0.4, 3))
+    np.testing.assert_array_equal(wide, [False] * 9)
+    none = wear.off_reference(dp, temp, ref_dp_bar=None, ref_temp_c=None)
+    assert not none.any() and none.shape == (9,)
+    assert wear.off_reference(250.0, 5.0, **kw).shape == ()
+    with pytest.raises(ValueError, match="max_temp_distance_k must be"):
+        wear.off_reference(dp, temp, **kw, max_temp_distance_k=0.0)
+    with pytest.raises(ValueError, match="dp_ratio_range must be"):
+        wear.off_reference(dp, temp, **kw, dp_ratio_range=(1.5, 2.0))

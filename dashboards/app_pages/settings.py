@@ -49,6 +49,23 @@ with st.form("settings_form"):
                                  value=float(current["heavy_relief_fraction"]))  # fmt: skip
         readings = e3.number_input("Fewest readings for a wear trend", min_value=3, step=1,
                                    value=int(current["min_wear_readings"]))  # fmt: skip
+        before = e1.number_input("Readings before a step", min_value=3, step=1,
+                                 value=int(current["case_drain_step_min_before"]),
+                                 help="The step flag compares the latest case-drain reading "
+                                 "with the trend of at least this many earlier ones.")  # fmt: skip
+    with st.expander("Case-drain readings off the test conditions"):
+        st.caption(
+            "Readings further than this from the model's test temperature, or at a "
+            "test pressure outside this share of it, are shown but not trended."
+        )
+        f1, f2, f3 = st.columns(3)
+        distance = f1.number_input("Temperature distance [K]", min_value=0.5, step=5.0,
+                                   value=float(current["case_drain_temp_distance_k"]))  # fmt: skip
+        ratio_lo = f2.number_input("Pressure ratio from [×]", min_value=0.01, max_value=1.0,
+                                   step=0.05,
+                                   value=float(current["case_drain_dp_ratio_min"]))  # fmt: skip
+        ratio_hi = f3.number_input("Pressure ratio to [×]", min_value=1.0, step=0.25,
+                                   value=float(current["case_drain_dp_ratio_max"]))  # fmt: skip
     submitted = st.form_submit_button("Save settings", type="primary")
 
 if submitted:
@@ -56,6 +73,8 @@ if submitted:
         "reliability_pct": reliability, "rate_window_h": window, "stale_days": int(stale),
         "utilisation_days": int(util), "case_drain_step_factor": step,
         "heavy_relief_fraction": relief, "min_wear_readings": int(readings),
+        "case_drain_step_min_before": int(before), "case_drain_temp_distance_k": distance,
+        "case_drain_dp_ratio_min": ratio_lo, "case_drain_dp_ratio_max": ratio_hi,
         "status_limits": {"overdue_h": overdue, "due_h": due, "plan_h": plan},
     }  # fmt: skip
     try:

@@ -41,6 +41,18 @@ with st.container(border=True):
 st.dataframe(ui.table_frame(report.status).drop(columns=["unit", "site", "machine_type"]),
              column_config=ui.column_config(), hide_index=True, key="u_status")  # fmt: skip
 
+settings = data.settings(ctx.url)
+drain_note = (
+    "Readings taken more than {:g} K from the model's test temperature, or at a test "
+    "pressure outside {:g}–{:g} times the model's test pressure, are shown (open diamonds) "
+    "but left out of the trend and the step check (Settings page). The 95 % range needs "
+    "at least 5 readings at distinct hour meters; with fewer, no range is shown."
+).format(settings["case_drain_temp_distance_k"], settings["case_drain_dp_ratio_min"],
+         settings["case_drain_dp_ratio_max"])  # fmt: skip
+relief_note = (
+    "Relief heat is an upper bound: it assumes full stall flow across the relief in every "
+    "band at or above 95 % of the relief setting. With a pressure cut-off it is taken as nil."
+)
 positions = list(report.components)
 for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict=True):
     detail = report.components[pos]
@@ -59,7 +71,9 @@ for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict
             ),
             key=f"drain_{pos}",
         )
+        left.caption(drain_note)
         right.plotly_chart(charts.relief_figure(detail.relief_monthly), key=f"relief_{pos}")
+        right.caption(relief_note)
         left.plotly_chart(charts.oil_figure(detail.oil_samples), key=f"oil_{pos}")
         right.markdown("**Oil samples**")
         right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}",

@@ -219,7 +219,8 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
         emit(_frame_records(df), "table", list(df.columns))
     for pos, rows in readings.items():
         click.echo(f"\ncase-drain readings, {pos}:")
-        emit(rows, "table", ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"])
+        cols = ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"]
+        emit(rows, "table", [*cols, "off_reference"])
     click.echo("")
     for line in rep.summary:
         click.echo(line)

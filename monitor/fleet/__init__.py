@@ -22,6 +22,7 @@ from monitor.fleet.params import (
     DEFAULT_LIMITS,
     EXTRA_COLUMNS,
     FLAG_FEW,
+    FLAG_OFF_REFERENCE,
     FLAG_RELIEF,
     FLAG_STALE,
     FLAG_STEP,
@@ -43,6 +44,7 @@ from monitor.fleet.wear_status import (
     case_drain_step,
     normalised_case_drain,
     oil_viscosity_line,
+    readings_off_reference,
     wear_frame,
 )
 
@@ -52,6 +54,7 @@ __all__ = [
     "EXTRA_COLUMNS",
     "FLAGS",
     "FLAG_FEW",
+    "FLAG_OFF_REFERENCE",
     "FLAG_RELIEF",
     "FLAG_STALE",
     "FLAG_STEP",
@@ -70,6 +73,7 @@ __all__ = [
     "oil_samples",
     "oil_viscosity_line",
     "rank_records",
+    "readings_off_reference",
     "relief_monthly",
     "sort_status",
     "unit_summary",

@@ -14,13 +14,21 @@ import numpy as np
 import pandas as pd
 
 from monitor.domain.notices import ESTIMATE_NOTICE  # noqa: F401 - re-exported
-from monitor.fleet.params import FLAG_FEW, FLAG_RELIEF, FLAG_STALE, FLAG_STEP, StatusParams
+from monitor.fleet.params import (
+    FLAG_FEW,
+    FLAG_OFF_REFERENCE,
+    FLAG_RELIEF,
+    FLAG_STALE,
+    FLAG_STEP,
+    StatusParams,
+)
 from monitor.fleet.wear_status import (
     _fit,
     _num,
     case_drain_limit_lpm,
     normalised_case_drain,
     oil_viscosity_line,
+    readings_off_reference,
 )
 from monitor.models import bearings, oil, wear
 
@@ -97,12 +105,17 @@ def case_drain_detail(
     status_row: Mapping,
     params: StatusParams,
 ) -> tuple[pd.DataFrame, wear.WearTrend | None]:
-    """Every case-drain reading of a component (raw and normalised) and its current trend."""
+    """Every case-drain reading of a component (raw and normalised) and its current trend.
+
+    Returns the table ``taken_at, hour_meter [h], case_drain_lpm [L/min], normalised_lpm
+    [L/min], used`` (in the current life) ``, off_reference`` (taken too far from the
+    model's test conditions: shown, not trended) and the trend of the readings that are
+    used and not off the reference (None without one).
+    """
     rd = readings[readings["case_drain_lpm"].notna()].reset_index(drop=True)
+    dp, temp = (rd[c].to_numpy(float) for c in ("test_pressure_bar", "oil_temp_c"))
     norm = normalised_case_drain(
-        *(rd[c].to_numpy(float) for c in ("case_drain_lpm", "test_pressure_bar", "oil_temp_c")),
-        row,
-        oil_viscosity_line(row),
+        rd["case_drain_lpm"].to_numpy(float), dp, temp, row, oil_viscosity_line(row)
     )
     used = (
         np.ones(len(rd), bool)
@@ -116,10 +129,12 @@ def case_drain_detail(
             "case_drain_lpm": rd["case_drain_lpm"],
             "normalised_lpm": np.asarray(norm, float),
             "used": used,
+            "off_reference": readings_off_reference(dp, temp, row, params),
         }
     )
-    x = table.loc[table["used"], "hour_meter"].to_numpy(float)
-    y = table.loc[table["used"], "normalised_lpm"].to_numpy(float)
+    trended = table["used"] & ~table["off_reference"]
+    x = table.loc[trended, "hour_meter"].to_numpy(float)
+    y = table.loc[trended, "normalised_lpm"].to_numpy(float)
     now = _num(status_row.get("hour_meter"))
     now = max(now if now is not None else -np.inf, x.max() if x.size else -np.inf)
     trend = _fit(x, y, case_drain_limit_lpm(row), now, params) if x.size else None
@@ -155,11 +170,30 @@ def oil_samples(readings: pd.DataFrame) -> pd.DataFrame:
 _FLAG_TEXT = {
     FLAG_STALE: "no upload for {age} days: the estimate may be out of date",
     FLAG_STEP: "the latest case-drain reading jumped above {step:g} times the trend "
-    "before it: check for sudden damage",
+    "of the {before} or more readings before it: check for sudden damage",
     FLAG_RELIEF: "{rel:.1f} h at relief pressure in the rate window and no pressure "
-    "cut-off: heavy heat load on the oil",
-    FLAG_FEW: "fewer than {n} case-drain readings since the last rebuild: no wear trend yet",
+    "cut-off: heavy heat load on the oil (relief heat {heat} is an upper bound: full "
+    "stall flow assumed in every band at relief)",
+    FLAG_FEW: "{few}",
+    FLAG_OFF_REFERENCE: "{off} case-drain reading(s) taken more than {dist:g} K from the "
+    "model's test temperature or at a test pressure outside {lo:g}-{hi:g} times the "
+    "model's test pressure are shown but left out of the trend and the step check "
+    "(settings case_drain_temp_distance_k, case_drain_dp_ratio_min/max)",
 }
+
+
+def _few_text(r: Mapping, params: StatusParams) -> str:
+    n = int(r.get("n_wear_readings", 0) or 0)
+    if n < params.min_wear_readings:
+        return (
+            f"fewer than {params.min_wear_readings} trended case-drain readings since the "
+            "last rebuild: no wear trend yet"
+        )
+    return (
+        f"{n} trended case-drain readings give a wear trend but no 95 % range: the widest "
+        f"range {n} readings can give is short of 95 % (at least 5 readings at distinct "
+        "hour meters are needed), so no range is claimed"
+    )
 
 
 def _sentence(r: Mapping, params: StatusParams) -> str:
@@ -190,16 +224,23 @@ def unit_summary(status: pd.DataFrame, params: StatusParams) -> list[str]:
     out = []
     for r in status.to_dict("records"):
         out.append(_sentence(r, params))
-        age = r["data_age_days"]
         for flag in r["flags"]:
-            out.append(
-                f"  {r['position']}: "
-                + _FLAG_TEXT[flag].format(
-                    age="no data" if age != age else f"{age:.0f}",
-                    step=params.case_drain_step_factor,
-                    rel=r["relief_hours"],
-                    n=params.min_wear_readings,
-                )
-            )
+            out.append(f"  {r['position']}: " + _flag_sentence(flag, r, params))
     out.append(ESTIMATE_NOTICE)
     return out
+
+
+def _flag_sentence(flag: str, r: Mapping, params: StatusParams) -> str:
+    age, heat = r["data_age_days"], _num(r.get("relief_heat_kwh"))
+    return _FLAG_TEXT[flag].format(
+        age="no data" if age != age else f"{age:.0f}",
+        step=params.case_drain_step_factor,
+        before=params.step_min_before,
+        rel=r["relief_hours"],
+        heat="unknown" if heat is None else f"{heat:,.0f} kWh",
+        few=_few_text(r, params),
+        off=int(r.get("n_wear_readings_off", 0) or 0),
+        dist=params.case_drain_temp_distance_k,
+        lo=params.case_drain_dp_ratio_min,
+        hi=params.case_drain_dp_ratio_max,
+    )

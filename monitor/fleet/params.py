@@ -6,7 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime
 
-from monitor.models import lifecycle
+from monitor.models import lifecycle, wear
 
 RANK_COLUMNS = (
     "unit",
@@ -42,6 +42,8 @@ EXTRA_COLUMNS = (
     "case_drain_slope_lpm_per_h",
     "cutoff_hours",
     "has_cutoff",
+    "n_wear_readings",
+    "n_wear_readings_off",
 )
 """Further columns of the status frame (dashboard detail), after the rank keys."""
 
@@ -51,7 +53,8 @@ FLAG_STALE = "stale"
 FLAG_STEP = "case_drain_step"
 FLAG_RELIEF = "heavy_relief"
 FLAG_FEW = "few_wear_readings"
-FLAGS = (FLAG_STALE, FLAG_STEP, FLAG_RELIEF, FLAG_FEW)
+FLAG_OFF_REFERENCE = "wear_readings_off_reference"
+FLAGS = (FLAG_STALE, FLAG_STEP, FLAG_RELIEF, FLAG_FEW, FLAG_OFF_REFERENCE)
 
 DEFAULT_LIMITS = dict(lifecycle.DEFAULT_STATUS_LIMITS_H)
 
@@ -80,6 +83,17 @@ class StatusParams:
         ``heavy_relief`` [-] (0.01: common practice, no source).
     min_wear_readings : int
         Fewest case-drain readings for a wear trend [-].
+    case_drain_step_min_before : int
+        Fewest trended readings before the latest for ``case_drain_step`` (never fewer
+        than ``min_wear_readings``) [-] (4: a rule of this project, common practice, no
+        source).
+    case_drain_temp_distance_k : float
+        Readings whose oil temperature is further than this from the model's test
+        temperature are shown but not trended, and raise ``wear_readings_off_reference``
+        [K] (20: common practice, no source).
+    case_drain_dp_ratio_min, case_drain_dp_ratio_max : float
+        Readings whose test pressure over the model's test pressure lies outside this
+        range are shown but not trended [-] (0.5-2: common practice, no source).
     """
 
     reliability_pct: float = 90.0
@@ -90,6 +104,15 @@ class StatusParams:
     case_drain_step_factor: float = 1.5
     heavy_relief_fraction: float = 0.01
     min_wear_readings: int = 3
+    case_drain_step_min_before: int = 4
+    case_drain_temp_distance_k: float = wear.REFERENCE_TEMP_DISTANCE_K
+    case_drain_dp_ratio_min: float = wear.REFERENCE_DP_RATIO[0]
+    case_drain_dp_ratio_max: float = wear.REFERENCE_DP_RATIO[1]
+
+    @property
+    def step_min_before(self) -> int:
+        """Readings needed before the latest for the step flag [-]."""
+        return max(self.case_drain_step_min_before, self.min_wear_readings)
 
 
 def as_of_instant(as_of: date) -> datetime:

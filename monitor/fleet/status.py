@@ -117,9 +117,10 @@ STATUS_BANDS = (*lifecycle.STATUS_BANDS, lifecycle.NO_ESTIMATE)
 
 
 _FLAG_SETS = tuple(
-    tuple(name for bit, name in enumerate(FLAGS) if code >> bit & 1) for code in range(16)
+    tuple(name for bit, name in enumerate(FLAGS) if code >> bit & 1)
+    for code in range(2 ** len(FLAGS))
 )
-"""The flags of each 4-bit code (bit i set: ``FLAGS[i]`` is raised)."""
+"""The flags of each code (bit i set: ``FLAGS[i]`` is raised)."""
 
 
 def _flags(df: pd.DataFrame, params: StatusParams) -> list[list[str]]:
@@ -129,11 +130,14 @@ def _flags(df: pd.DataFrame, params: StatusParams) -> list[list[str]]:
     age = df["data_age_days"].to_numpy(float)
     stale = np.isnan(age) | (age > params.stale_days)
     relief = ~df["has_cutoff"].to_numpy(bool) & (frac > params.heavy_relief_fraction)
+    # too few trended readings for a trend, or for its range at the stated level
     few = ~np.isnan(df["case_drain_limit_lpm"].to_numpy(float)) & (
-        df["n_wear_readings"].to_numpy() < params.min_wear_readings
+        (df["n_wear_readings"].to_numpy() < params.min_wear_readings)
+        | df["wear_range_short"].to_numpy(bool)
     )
     step = df["case_drain_step"].to_numpy(bool)
-    code = stale.astype(int) + 2 * step + 4 * relief + 8 * few
+    off = df["n_wear_readings_off"].to_numpy() > 0
+    code = stale.astype(int) + 2 * step + 4 * relief + 8 * few + 16 * off
     return [list(_FLAG_SETS[c]) for c in code.tolist()]
 
 

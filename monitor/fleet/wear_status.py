@@ -94,6 +94,36 @@ def normalised_case_drain(
     )
 
 
+def readings_off_reference(
+    test_dp_bar: np.ndarray, oil_temp_c: np.ndarray, row: Mapping, params: StatusParams
+) -> np.ndarray:
+    """Readings of one component too far from its model's test conditions to be trended.
+
+    Parameters
+    ----------
+    test_dp_bar, oil_temp_c : array
+        Test pressure [bar] and oil temperature [degC] (nan: not recorded).
+    row : mapping
+        The component's row (model ``m_*`` fields).
+    params : StatusParams
+        The distance [K] and pressure-ratio [-] limits.
+
+    Returns
+    -------
+    numpy.ndarray of bool
+        True where the reading is off the reference (see
+        :func:`monitor.models.wear.off_reference`).
+    """
+    return wear.off_reference(
+        test_dp_bar,
+        oil_temp_c,
+        ref_dp_bar=_num(row.get("m_case_drain_test_dp_bar")),
+        ref_temp_c=_num(row.get("m_case_drain_test_temp_c")),
+        max_temp_distance_k=params.case_drain_temp_distance_k,
+        dp_ratio_range=(params.case_drain_dp_ratio_min, params.case_drain_dp_ratio_max),
+    )
+
+
 def _fit(
     x: np.ndarray, y: np.ndarray, limit: float | None, now: float, params: StatusParams
 ) -> wear.WearTrend | None:
@@ -114,17 +144,17 @@ def case_drain_step(x: np.ndarray, y: np.ndarray, params: StatusParams) -> bool:
     """True if the latest reading exceeds the step factor times the level fitted before it.
 
     The level before is the Theil-Sen line through the earlier readings at the latest
-    reading's hour meter, or, with fewer earlier readings than a trend needs, their
-    median (a rule of this project, common practice, no source).
+    reading's hour meter. It needs at least ``params.step_min_before`` earlier readings
+    (4 by default, never fewer than a trend needs) at two or more hour meters; with fewer
+    there is no flag (a rule of this project, common practice, no source).
     """
-    if y.size < 2:
+    if y.size - 1 < params.step_min_before:
         return False
     px, py = x[:-1], y[:-1]
-    if py.size >= params.min_wear_readings and np.unique(px).size >= 2:
-        slope, intercept, _, _ = wear.theil_sen(px, py)
-        level = intercept + slope * x[-1]
-    else:
-        level = float(np.median(py))
+    if np.unique(px).size < 2:
+        return False
+    slope, intercept, _, _ = wear.theil_sen(px, py)
+    level = intercept + slope * x[-1]
     return bool(level > 0 and y[-1] > params.case_drain_step_factor * level)
 
 
@@ -146,10 +176,14 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     pandas.DataFrame
         ``n_wear_readings, case_drain_level_lpm [L/min], case_drain_slope_lpm_per_h
         [L/min/h], remaining_wear_h, remaining_wear_h_low, remaining_wear_h_high [h],
-        case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``.
+        case_drain_limit_lpm [L/min], case_drain_step (bool)`` aligned with ``inputs``,
+        and ``n_wear_readings_off`` (readings off the reference test conditions, left out
+        of the trend and the step) and ``wear_range_short`` (a trend whose readings are
+        too few for a slope interval at 95 %, so no range).
 
     Notes
     -----
+    ``n_wear_readings`` counts the trended readings (those off the reference excluded).
     Columns at once: the readings of all components are one pair of arrays, each
     component a contiguous span; the trend and the fit before the latest reading
     come from one batched Theil-Sen (:func:`monitor.models.wear.theil_sen_batch_and_before_last`).
@@ -157,31 +191,30 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     one-at-a-time definition the batch reproduces (``tests/test_perf_equivalence.py``).
     """
     limit, has_limit = _limits(inputs)
-    sr = _Series.build(inputs, readings)
-    res = np.full((len(inputs), 5), np.nan)
+    sr = _Series.build(inputs, readings, params)
+    res = np.full((len(inputs), 6), np.nan)  # level, slope, remaining x 3, slope_low
     step = np.zeros(len(inputs), bool)
     st = _SpanStats(sr.x, sr.y, sr.n)
     valid = ~has_limit[sr.rows] | (np.isfinite(limit[sr.rows]) & (limit[sr.rows] > 0))
     fast = st.finite & valid  # the others keep the one-at-a-time path, as they always did
-    m = params.min_wear_readings
-    trend = fast & (st.n >= m) & (st.x_min != st.x_max)
+    trend = fast & (st.n >= params.min_wear_readings) & (st.x_min != st.x_max)
     fit, before = wear.theil_sen_batch_and_before_last(
         [sr.x[a:b] for a, b in sr.bounds(trend)], [sr.y[a:b] for a, b in sr.bounds(trend)]
     )
     rows = sr.rows[trend]
     level = fit[:, 1] + fit[:, 0] * _now_fast(inputs, rows, st.x_max[trend])
-    res[rows, 0], res[rows, 1] = level, fit[:, 0]
+    res[rows, 0], res[rows, 1], res[rows, 5] = level, fit[:, 0], fit[:, 2]
     lim = has_limit[rows]
-    res[rows[lim], 2:] = wear.remaining_wear_h_batch(
+    res[rows[lim], 2:5] = wear.remaining_wear_h_batch(
         limit[rows[lim]], level[lim], fit[lim, 0], fit[lim, 2], fit[lim, 3]
     )
-    # fit of the readings before the latest: only where it has enough readings of its own
-    with_fit = (st.n[trend] - 1 >= m) & (st.p_min[trend] != st.p_max[trend])
+    # fit of the readings before the latest: only where there are enough of them
+    with_fit = (st.n[trend] - 1 >= params.step_min_before) & (st.p_min[trend] != st.p_max[trend])
     step_level = np.full(sr.rows.size, np.nan)
     step_level[np.flatnonzero(trend)[with_fit]] = (
         before[with_fit, 1] + before[with_fit, 0] * sr.x[sr.last[trend][with_fit]]
     )
-    step[sr.rows[fast]] = _steps(sr, fast, trend, with_fit, step_level, params)
+    step[sr.rows[fast]] = _steps(sr, fast, step_level, params)
     for j in np.flatnonzero(~fast).tolist():
         i = int(sr.rows[j])
         x, y = sr.series(j)
@@ -190,18 +223,13 @@ def wear_frame(inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParam
     return _wear_out(res, sr, limit, step, inputs.index)
 
 
-def _steps(sr, fast, trend, with_fit, step_level, params: StatusParams) -> np.ndarray:  # noqa: ANN001
+def _steps(sr, fast, step_level, params: StatusParams) -> np.ndarray:  # noqa: ANN001
     """:func:`case_drain_step` of the finite series (``fast``), from the fitted level
-    before the latest reading where there is one, else the median of the earlier ones."""
-    level = step_level.copy()
-    has_fit = np.zeros(sr.rows.size, bool)
-    has_fit[np.flatnonzero(trend)[with_fit]] = True
-    for j in np.flatnonzero(fast & ~has_fit & (sr.n >= 2)).tolist():
-        level[j] = float(np.median(sr.series(j)[1][:-1]))
-    ok = fast & (sr.n >= 2)
+    before the latest reading where there is one (no flag where there is none)."""
+    ok = fast & ~np.isnan(step_level)
     y_last = np.where(ok, sr.y[np.where(ok, sr.last, 0)], np.nan)
     with np.errstate(invalid="ignore"):
-        flag = ok & (level > 0) & (y_last > params.case_drain_step_factor * level)
+        flag = ok & (step_level > 0) & (y_last > params.case_drain_step_factor * step_level)
     return flag[fast]
 
 
@@ -213,10 +241,13 @@ def _wear_out(res: np.ndarray, sr, limit, step, index) -> pd.DataFrame:  # noqa:
         "remaining_wear_h_low",
         "remaining_wear_h_high",
     )
-    out = pd.DataFrame(res, columns=list(names), index=index)
+    out = pd.DataFrame(res[:, :5], columns=list(names), index=index)
     count = np.zeros(len(index), int)
     count[sr.rows] = sr.n
     out["n_wear_readings"] = count
+    out["n_wear_readings_off"] = sr.off_count
+    # a trend without a slope interval: too few readings for the interval's level
+    out["wear_range_short"] = ~np.isnan(res[:, 1]) & np.isnan(res[:, 5])
     out["case_drain_limit_lpm"] = limit
     out["case_drain_step"] = step
     return out
@@ -277,8 +308,9 @@ class _Series:
     """Each input row's readings as one span of two concatenated arrays: hour meter
     [h] and normalised case drain [L/min], normalised in one call per model and oil."""
 
-    def __init__(self, rows, n, x, y) -> None:  # noqa: ANN001
+    def __init__(self, rows, n, x, y, off_count) -> None:  # noqa: ANN001
         self.rows, self.n, self.x, self.y = rows, n, x, y
+        self.off_count = off_count  # per inputs row: readings left out (off reference)
         self.start = np.r_[0, np.cumsum(n)[:-1]].astype(np.int64) if n.size else n
         self.last = self.start + n - 1
 
@@ -291,11 +323,12 @@ class _Series:
         return list(zip(a.tolist(), (a + self.n[mask]).tolist(), strict=True))
 
     @classmethod
-    def build(cls, inputs: pd.DataFrame, readings: pd.DataFrame) -> _Series:
+    def build(cls, inputs: pd.DataFrame, readings: pd.DataFrame, params: StatusParams) -> _Series:
         cid = inputs["component_id"].to_numpy()
         empty = np.zeros(0, np.int64)
+        off_count = np.zeros(len(inputs), np.int64)
         if readings.empty or cid.size == 0:
-            return cls(empty, empty, np.zeros(0), np.zeros(0))
+            return cls(empty, empty, np.zeros(0), np.zeros(0), off_count)
         rd = readings
         if not rd["component_id"].is_monotonic_increasing:
             rd = rd.sort_values("component_id", kind="stable")  # time order kept within
@@ -310,15 +343,26 @@ class _Series:
             rd[c].to_numpy(float)[take]
             for c in ("hour_meter", "case_drain_lpm", "test_pressure_bar", "oil_temp_c")
         ]
-        y = _normalised_by_group(inputs, rows, n, cols[1:])
-        return cls(rows, n, cols[0], y)
+        y, off = _normalised_by_group(inputs, rows, n, cols[1:], params)
+        per_row_off = np.bincount(np.repeat(np.arange(rows.size), n), off, rows.size)
+        off_count[rows] = per_row_off.astype(np.int64)
+        x = cols[0]
+        if off.any():  # readings off the reference conditions are shown, not trended
+            x, y, n = x[~off], y[~off], n - off_count[rows]
+            rows, n = rows[n > 0], n[n > 0]
+        return cls(rows, n, x, y, off_count)
 
 
 def _normalised_by_group(
-    inputs: pd.DataFrame, rows: np.ndarray, n: np.ndarray, cols: list[np.ndarray]
-) -> np.ndarray:
-    """Readings normalised in one call per component model and oil (elementwise, so the
-    same numbers as one call per component)."""
+    inputs: pd.DataFrame,
+    rows: np.ndarray,
+    n: np.ndarray,
+    cols: list[np.ndarray],
+    params: StatusParams,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Readings normalised, and whether each is off the reference conditions, in one
+    call per component model and oil (elementwise, so the same as one call per
+    component)."""
     keys = [
         inputs[c].to_numpy(object)[rows] if c in inputs.columns else [None] * rows.size
         for c in ("m_name", "oil_name")
@@ -333,12 +377,16 @@ def _normalised_by_group(
         row_group[j] = g
     elem_group = np.repeat(row_group, n)
     y = np.empty(elem_group.size)
+    off = np.zeros(elem_group.size, bool)
     for g, j in enumerate(first):
         sel = elem_group == g if len(first) > 1 else slice(None)
         row = _row(inputs, int(rows[j]))
         line = oil_viscosity_line(row)
         y[sel] = normalised_case_drain(cols[0][sel], cols[1][sel], cols[2][sel], row, line)
-    return y
+        off[sel] = readings_off_reference(cols[1][sel], cols[2][sel], row, params) & (
+            np.isfinite(cols[0][sel])  # only flow readings count
+        )
+    return y, off
 
 
 class _SpanStats:
@@ -370,7 +418,7 @@ def _now_hour_meter(row: Mapping, x: np.ndarray) -> float:
 def _wear_one(x, y, limit, row, params) -> tuple[tuple, bool]:  # noqa: ANN001
     """Trend values and step flag of one component, the plain way (odd inputs)."""
     trend = _fit(x, y, limit, _now_hour_meter(row, x), params)
-    vals = (math.nan,) * 5
+    vals = (math.nan,) * 6
     if trend is not None:
         vals = (
             trend.level_now,
@@ -378,5 +426,6 @@ def _wear_one(x, y, limit, row, params) -> tuple[tuple, bool]:  # noqa: ANN001
             trend.remaining_h,
             trend.remaining_h_low,
             trend.remaining_h_high,
+            trend.slope_low,
         )
     return vals, case_drain_step(x, y, params)

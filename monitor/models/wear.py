@@ -14,12 +14,13 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import norm
 
+from monitor.models import kendall
 from monitor.models.oil import walther_viscosity_mm2s
 
 MIN_READINGS = 3
-"""Fewest readings for a wear trend (design brief)."""
+"""Fewest readings for a wear trend (a line needs two; three is this project's rule,
+common practice, no source)."""
 
 
 @dataclass(frozen=True)
@@ -99,9 +100,8 @@ def normalise_case_drain_lpm(
 
     References
     ----------
-    Laminar flow between parallel plates (F. M. White, Fluid Mechanics, 7th ed., McGraw-Hill 2011,
-    plane Poiseuille flow between parallel plates (section from memory);
-    §6); ASTM D341-20 for nu(T); design brief, "Life model v1".
+    Plane Poiseuille flow between parallel plates: F. M. White, Fluid Mechanics, 7th
+    ed., McGraw-Hill 2011 (section from memory); ASTM D341-20 for nu(T).
     """
     q = np.asarray(case_drain_lpm, dtype=float) - float(flushing_lpm)
     dp = np.asarray(test_dp_bar, dtype=float)
@@ -117,6 +117,85 @@ def normalise_case_drain_lpm(
         nu = walther_viscosity_mm2s(temp, *oil_line)
         q = q * np.where(np.isnan(temp), 1.0, nu / nu_ref)
     return q
+
+
+REFERENCE_TEMP_DISTANCE_K = 20.0
+"""Default largest distance of a reading's oil temperature from the reference test
+temperature for it to join the trend [K] (common practice, no source)."""
+
+REFERENCE_DP_RATIO = (0.5, 2.0)
+"""Default range of the test-pressure ratio dp_t / dp_ref for a reading to join the trend
+[-] (common practice, no source)."""
+
+
+def off_reference(
+    test_dp_bar: float | np.ndarray,
+    oil_temp_c: float | np.ndarray,
+    *,
+    ref_dp_bar: float | None,
+    ref_temp_c: float | None,
+    max_temp_distance_k: float = REFERENCE_TEMP_DISTANCE_K,
+    dp_ratio_range: tuple[float, float] = REFERENCE_DP_RATIO,
+) -> np.ndarray:
+    """Readings taken too far from the reference test conditions to be trended.
+
+    Parameters
+    ----------
+    test_dp_bar : float or array
+        Pressure difference during the test dp_t [bar]; nan: not recorded.
+    oil_temp_c : float or array
+        Oil temperature during the test T [degC]; nan: not recorded.
+    ref_dp_bar, ref_temp_c : float or None
+        Model's reference test pressure [bar] and oil temperature [degC]; None: that
+        condition is not checked.
+    max_temp_distance_k : float, default 20
+        Largest ``|T - T_ref|`` of a reading that is trended [K].
+    dp_ratio_range : tuple of float, default (0.5, 2)
+        Range of ``dp_t / dp_ref`` of a reading that is trended [-].
+
+    Returns
+    -------
+    numpy.ndarray of bool
+        True where ``|T - T_ref| > max_temp_distance_k`` or ``dp_t / dp_ref`` lies outside
+        ``dp_ratio_range``; a condition not recorded counts as within.
+
+    Raises
+    ------
+    ValueError
+        If the distance is not positive or the ratio range does not hold 1.
+
+    Notes
+    -----
+    Normalising (:func:`normalise_case_drain_lpm`) multiplies a reading by
+    ``(dp_ref / dp_t) (nu(T) / nu(T_ref))``; far from the reference the laminar-leakage
+    law and the viscosity line carry the whole answer (a reading at 5 degC in ISO VG 46
+    oil is multiplied by about 13 to reach 50 degC), so such readings are shown but not
+    trended. The limits are a rule of this project (common practice, no source).
+
+    References
+    ----------
+    ASTM D341-20 for the viscosity line; F. M. White, Fluid Mechanics, 7th ed.,
+    McGraw-Hill 2011, plane Poiseuille flow (section from memory).
+    """
+    if not (np.isfinite(max_temp_distance_k) and max_temp_distance_k > 0):
+        raise ValueError(
+            f"max_temp_distance_k must be a temperature distance > 0 K, got {max_temp_distance_k!r}"
+        )
+    lo, hi = (float(v) for v in dp_ratio_range)
+    if not (0 < lo <= 1 <= hi < np.inf):
+        raise ValueError(
+            f"dp_ratio_range must be (low, high) with 0 < low <= 1 <= high, got {dp_ratio_range!r}"
+        )
+    dp = np.asarray(test_dp_bar, dtype=float)
+    temp = np.asarray(oil_temp_c, dtype=float)
+    off = np.zeros(np.broadcast(dp, temp).shape, bool)
+    with np.errstate(invalid="ignore"):
+        if ref_temp_c is not None:
+            off |= np.abs(temp - float(ref_temp_c)) > max_temp_distance_k
+        if ref_dp_bar is not None:
+            ratio = dp / float(ref_dp_bar)
+            off |= (ratio < lo) | (ratio > hi)
+    return off
 
 
 def clearance_ratio(leakage_ratio: float | np.ndarray) -> np.ndarray:
@@ -149,7 +228,7 @@ def clearance_ratio(leakage_ratio: float | np.ndarray) -> np.ndarray:
 def theil_sen(
     x: np.ndarray, y: np.ndarray, alpha: float = 0.95
 ) -> tuple[float, float, float, float]:
-    """Theil-Sen slope, intercept and slope confidence interval.
+    """Theil-Sen slope, intercept and exact distribution-free slope confidence interval.
 
     Parameters
     ----------
@@ -163,7 +242,9 @@ def theil_sen(
     Returns
     -------
     tuple of float
-        (slope, intercept, slope_low, slope_high) [y-unit per x-unit, y-unit, ...].
+        (slope, intercept, slope_low, slope_high) [y-unit per x-unit, y-unit, ...];
+        slope_low and slope_high are nan when n points cannot give an interval at the
+        level (n = 3 or 4 at 95 %, see :func:`theil_sen_batch`).
 
     Raises
     ------
@@ -172,42 +253,21 @@ def theil_sen(
 
     Notes
     -----
-    Slope: median of ``(y_j - y_i) / (x_j - x_i)`` over pairs with ``x_j > x_i``;
-    intercept ``median(y) - slope median(x)``. Interval: sorted slopes at ranks
-    ``(N -+ z sigma) / 2`` with ``sigma^2 = [n(n-1)(2n+5) - sum_t t(t-1)(2t+5)] / 18``
-    summed over ties in x and in y (normal approximation).
+    One row of :func:`theil_sen_batch`, which holds the definition.
 
     References
     ----------
-    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6); conventions as in
-    ``scipy.stats.theilslopes`` (method "separate").
+    Theil (1950); Sen, P. K. (1968), J. Am. Stat. Assoc. 63, 1379-1389.
     """
     xs, ys = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
     if xs.shape != ys.shape or xs.ndim != 1 or xs.size < 2:
         raise ValueError("x and y must be 1-D arrays of equal length >= 2")
     if not (np.all(np.isfinite(xs)) and np.all(np.isfinite(ys))):
         raise ValueError("x and y must be finite (drop missing readings first)")
-    if not (0 < alpha < 1):
-        raise ValueError(f"alpha must be a confidence level in (0, 1), got {alpha!r}")
-    dx = xs[:, np.newaxis] - xs
-    dy = ys[:, np.newaxis] - ys
-    slopes = np.sort(dy[dx > 0] / dx[dx > 0])
-    if slopes.size == 0:
+    if np.unique(xs).size < 2:
         raise ValueError("x must have at least two distinct values")
-    slope = float(np.median(slopes))
-    intercept = float(np.median(ys) - slope * np.median(xs))
-    z = norm.ppf((1.0 - max(alpha, 1.0 - alpha)) / 2.0)
-    ties = [np.unique(v, return_counts=True)[1] for v in (xs, ys)]
-    n = ys.size
-    sigsq = (
-        n * (n - 1) * (2 * n + 5) - sum(int((t * (t - 1) * (2 * t + 5)).sum()) for t in ties)
-    ) / 18.0
-    if sigsq < 0:
-        return slope, intercept, math.nan, math.nan
-    sigma = math.sqrt(sigsq)
-    upper = min(int(np.round((slopes.size - z * sigma) / 2.0)), slopes.size - 1)
-    lower = max(int(np.round((slopes.size + z * sigma) / 2.0)) - 1, 0)
-    return slope, intercept, float(slopes[lower]), float(slopes[upper])
+    row = theil_sen_batch([xs], [ys], alpha)[0]
+    return tuple(float(v) for v in row)  # type: ignore[return-value]
 
 
 def remaining_wear_h(limit: float, level: float, slope: float, low: float, high: float) -> tuple:
@@ -292,7 +352,9 @@ def case_drain_trend(
     WearTrend
         All fields nan (``n`` set) with fewer than ``min_readings`` readings or a
         single distinct hour meter. ``remaining_h`` is 0 when the fitted level now is
-        at or past the limit, nan when the slope is not positive.
+        at or past the limit, nan when the slope is not positive. The slope bounds and
+        the remaining-hours range are nan when the readings are too few for an interval
+        at ``alpha`` (3 or 4 readings at 95 %, see :func:`theil_sen_batch`).
 
     Notes
     -----
@@ -301,7 +363,7 @@ def case_drain_trend(
 
     References
     ----------
-    Sen (1968); design brief, "Life model v1" (case drain).
+    Sen, P. K. (1968), J. Am. Stat. Assoc. 63, 1379-1389.
     """
     if not (np.isfinite(limit_lpm) and limit_lpm > 0):
         raise ValueError(f"limit_lpm must be a flow > 0 L/min, got {limit_lpm!r}")
@@ -322,19 +384,6 @@ def case_drain_trend(
 
 PAIR_BLOCK = 4_000_000
 """Most pairwise slopes held at once by :func:`theil_sen_batch` (about 32 MB)."""
-
-
-def _tie_terms(v: np.ndarray) -> np.ndarray:
-    """Per row of ``v`` (k, n): sum over groups of equal values of t (t - 1) (2 t + 5)."""
-    k, n = v.shape
-    s = np.sort(v, axis=1)
-    new = np.ones((k, n), bool)
-    new[:, 1:] = s[:, 1:] != s[:, :-1]
-    if new.all():  # no ties: every group has t = 1, which adds 0
-        return np.zeros(k, np.int64)
-    run = np.cumsum(new, axis=1) - 1 + (np.arange(k) * n)[:, None]
-    t = np.bincount(run.ravel(), minlength=k * n).reshape(k, n).astype(np.int64)
-    return (t * (t - 1) * (2 * t + 5)).sum(axis=1)
 
 
 PAIR_ROWS = 256
@@ -381,7 +430,7 @@ def _pair_slopes(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, 
 
 
 def _fit_rows(
-    slopes: np.ndarray, count: np.ndarray, x: np.ndarray, y: np.ndarray, z: float
+    slopes: np.ndarray, count: np.ndarray, x: np.ndarray, y: np.ndarray, level: float
 ) -> np.ndarray:
     """(k, 4) slope, intercept, low, high from each row's sorted pairwise slopes."""
     k, n = x.shape
@@ -392,19 +441,18 @@ def _fit_rows(
     mid_lo, mid_hi = slopes[rows, (c - 1) // 2], slopes[rows, c // 2]
     slope = np.where(c % 2 == 1, mid_lo, (mid_lo + mid_hi) / 2.0)
     intercept = np.median(y, axis=1) - slope * np.median(x, axis=1)
-    sigsq = (n * (n - 1) * (2 * n + 5) - _tie_terms(x) - _tie_terms(y)) / 18.0
-    sigma = np.sqrt(np.maximum(sigsq, 0.0))
-    upper = np.minimum(np.round((count - z * sigma) / 2.0).astype(np.int64), count - 1)
-    lower = np.maximum(np.round((count + z * sigma) / 2.0).astype(np.int64) - 1, 0)
-    low = np.where(sigsq < 0, np.nan, slopes[rows, np.clip(lower, 0, None)])
-    high = np.where(sigsq < 0, np.nan, slopes[rows, np.clip(upper, 0, None)])
+    rank = kendall.interval_ranks(x, level)
+    ok = rank >= 1
+    last = slopes.shape[1] - 1
+    low = np.where(ok, slopes[rows, np.clip(rank - 1, 0, last)], np.nan)
+    high = np.where(ok, slopes[rows, np.clip(count - rank, 0, last)], np.nan)
     out = np.column_stack([slope, intercept, low, high])
     out[count == 0] = np.nan
     return out
 
 
 def _theil_sen_rows(
-    x: np.ndarray, y: np.ndarray, z: float, before_last: bool = False
+    x: np.ndarray, y: np.ndarray, level: float, before_last: bool = False
 ) -> tuple[np.ndarray, np.ndarray | None]:
     """(k, 4) slope, intercept, low, high of k series of equal length n (rows of x, y),
     and, with ``before_last``, the same of each series without its last point (taken
@@ -414,13 +462,13 @@ def _theil_sen_rows(
     if before_last:
         head = slopes[:, : (x.shape[1] - 1) * (x.shape[1] - 2) // 2].copy()
         head.sort(axis=1)
-        before = _fit_rows(head, count_head, x[:, :-1], y[:, :-1], z)
+        before = _fit_rows(head, count_head, x[:, :-1], y[:, :-1], level)
     slopes.sort(axis=1)
-    return _fit_rows(slopes, count, x, y, z), before
+    return _fit_rows(slopes, count, x, y, level), before
 
 
 def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0.95) -> np.ndarray:
-    """:func:`theil_sen` of many series at once, with the same results.
+    """Theil-Sen slope, intercept and exact slope confidence interval of many series.
 
     Parameters
     ----------
@@ -434,18 +482,32 @@ def theil_sen_batch(xs: list[np.ndarray], ys: list[np.ndarray], alpha: float = 0
     -------
     numpy.ndarray (m, 4)
         Per series: slope, intercept, slope_low, slope_high [y-unit per x-unit, y-unit,
-        ...]; a row of nan where all x of a series are equal.
+        ...]; a row of nan where all x of a series are equal; slope_low and slope_high
+        nan where no pair of order statistics reaches the level (n = 3 and 4 at 95 %:
+        the widest interval, smallest to largest slope, covers ``1 - 2/n!``, 67 % and
+        92 %).
 
     Notes
     -----
-    Series of equal length are stacked and their pairwise slopes taken over i < j
-    (``(y_i - y_j) / (x_i - x_j)`` for ``x_i != x_j`` is the slope of the ordered pair
-    with both signs flipped, so the same number), sorted once per row; median, intercept and
-    the rank interval then follow :func:`theil_sen` element by element.
+    Slope: median of the ``N'`` pairwise slopes ``(y_j - y_i) / (x_j - x_i)`` over pairs
+    with ``x_i != x_j``; intercept ``median(y) - slope median(x)``. Interval: the sorted
+    slopes ``[S_(L), S_(N'+1-L)]`` with the largest rank ``L`` for which
+    ``1 - 2 P(K <= L - 1) >= alpha``, ``K`` the number of discordant pairs under the
+    null hypothesis of Kendall's test (:func:`monitor.models.kendall.interval_rank`:
+    exact counts with ties in x up to 50 points, normal approximation with continuity
+    correction above). The interval is distribution-free: it holds its level for any
+    continuous, independent errors. Ties in y (rounded readings) are not corrected for.
+    Series of equal length are stacked and their pairwise slopes taken over i < j,
+    sorted once per row.
 
     References
     ----------
-    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6).
+    Theil, H. (1950), A rank-invariant method of linear and polynomial regression
+    analysis, Proc. Kon. Ned. Akad. Wetensch. 53; Sen, P. K. (1968), Estimates of the
+    regression coefficient based on Kendall's tau, J. Am. Stat. Assoc. 63, 1379-1389;
+    Hollander, M., Wolfe, D. A. and Chicken, E., Nonparametric Statistical Methods, 3rd
+    ed., Wiley 2014, ch. 9 (the confidence interval based on the Theil statistic;
+    section number from memory).
     """
     return _batch(xs, ys, alpha, before_last=False)[0]
 
@@ -474,12 +536,12 @@ def theil_sen_batch_and_before_last(
     -----
     The pairwise slopes of the points before the last are the pairwise slopes of all
     points less those that involve the last point, so both fits share one set of
-    differences; each is then :func:`theil_sen` element by element (same results as
-    two calls of :func:`theil_sen_batch`).
+    differences; each is then :func:`theil_sen_batch` element by element (same results
+    as two calls of :func:`theil_sen_batch`).
 
     References
     ----------
-    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, Eq. (2.6).
+    Theil (1950); Sen (1968), J. Am. Stat. Assoc. 63, 1379-1389.
     """
     return _batch(xs, ys, alpha, before_last=True)
 
@@ -494,7 +556,6 @@ def _batch(
     out, prev = np.full((len(xs), 4), np.nan), np.full((len(xs), 4), np.nan)
     if not xs:
         return out, prev
-    z = float(norm.ppf((1.0 - max(alpha, 1.0 - alpha)) / 2.0))
     shapes = [_shape(x) for x in xs]
     if shapes != [_shape(y) for y in ys] or any(len(sh) != 1 or sh[0] < 2 for sh in shapes):
         raise ValueError("every series needs x and y of equal length >= 2")
@@ -508,7 +569,7 @@ def _batch(
             y = np.array([ys[i] for i in part], dtype=float)
             if not (np.isfinite(x).all() and np.isfinite(y).all()):
                 raise ValueError("x and y must be finite (drop missing readings first)")
-            out[part], before = _theil_sen_rows(x, y, z, before_last)
+            out[part], before = _theil_sen_rows(x, y, alpha, before_last)
             if before is not None:
                 prev[part] = before
     return out, prev

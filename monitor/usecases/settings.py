@@ -17,6 +17,10 @@ DEFAULT_SETTINGS: dict = {
     "case_drain_step_factor": 1.5,
     "heavy_relief_fraction": 0.01,
     "min_wear_readings": 3,
+    "case_drain_step_min_before": 4,
+    "case_drain_temp_distance_k": 20.0,
+    "case_drain_dp_ratio_min": 0.5,
+    "case_drain_dp_ratio_max": 2.0,
 }
 """Status settings used where none are stored (``save_settings`` stores overrides)."""
 
@@ -111,6 +115,7 @@ def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
     if step <= 1 or frac >= 1:
         raise DomainError("case_drain_step_factor must be > 1 and heavy_relief_fraction < 1")
     return fleet.StatusParams(
+        **_wear_reference(settings),
         reliability_pct=r,
         rate_window_h=_positive(settings, "rate_window_h", "operating hours"),
         utilisation_days=_positive(settings, "utilisation_days", "calendar days"),
@@ -120,6 +125,30 @@ def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
         heavy_relief_fraction=frac,
         min_wear_readings=n,
     )
+
+
+def _wear_reference(settings: dict) -> dict:
+    """The step and reference-condition settings of the wear trend, checked."""
+    before = settings["case_drain_step_min_before"]
+    if not isinstance(before, int) or isinstance(before, bool) or before < 3:
+        raise DomainError(
+            "case_drain_step_min_before must be a whole number >= 3 (readings before the "
+            f"latest that the step flag compares with), got {before!r}"
+        )
+    dist = _positive(settings, "case_drain_temp_distance_k", "a temperature distance in K")
+    lo = _positive(settings, "case_drain_dp_ratio_min", "test pressure over reference")
+    hi = _positive(settings, "case_drain_dp_ratio_max", "test pressure over reference")
+    if not (lo <= 1.0 <= hi):
+        raise DomainError(
+            "case_drain_dp_ratio_min must be <= 1 and case_drain_dp_ratio_max >= 1 (a "
+            f"reading at the reference pressure is always trended), got {lo:g} and {hi:g}"
+        )
+    return {
+        "case_drain_step_min_before": before,
+        "case_drain_temp_distance_k": dist,
+        "case_drain_dp_ratio_min": lo,
+        "case_drain_dp_ratio_max": hi,
+    }
 
 
 def _params_for(engine: Engine, reliability_pct: float | None, rate_window_h: float | None):  # noqa: ANN202
