@@ -41,6 +41,8 @@ def test_output_is_unchanged(full_demo, name):
 if __name__ == "__main__":  # regenerate: python tests/test_golden_outputs.py
     import tempfile
 
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
     from monitor.usecases.demo import build_demo
     from tests.conftest import GOLDEN_END
 
