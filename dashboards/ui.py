@@ -334,6 +334,12 @@ _LABELS = {
     "hour_meter_start": "Hour meter from [h]",
     "hour_meter_end": "Hour meter to [h]",
     "file": "File",
+    "setting": "Above setting",
+    "start_s": "Start [s]",
+    "duration_s": "Duration [s]",
+    "peak_bar": "Peak [bar]",
+    "peak_s": "Peak at [s]",
+    "rise_rate_bar_per_s": "Rise rate [bar/s]",
 }
 
 

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
+import pandas as pd
 import pytest
 from streamlit.testing.v1 import AppTest
 
@@ -114,6 +116,31 @@ def test_unit_page_selectbox_picks_another_unit(store):
     assert not at.exception
     assert at.title[0].value == "Unit AB-CONV"
     assert len(at.get("plotly_chart")) == 5
+
+
+def test_unit_page_shows_a_stored_trace(store):
+    """A two-minute trace of AA-MILD's left loop (TP-50, relief 420 bar, no cut-off):
+    a climb to a stall at 415 bar, one spike to 470 bar (over 10 % above the relief)."""
+    t = np.arange(0.0, 120.0, 0.05)
+    high = np.clip(100.0 + 10.0 * t, 100.0, 415.0)
+    high[(t >= 60.0) & (t < 60.2)] = 470.0
+    speed = np.where(high >= 400.0, 0.0, 1800.0)
+    csv = pd.DataFrame(
+        {"time_s": t, "pressure_a_bar": high, "pressure_b_bar": 20.0, "speed_rpm": speed}
+    ).to_csv(index=False)
+    engine = usecases.init_db(store)
+    res = usecases.ingest_trace(
+        engine, csv.encode(), "mild_left.csv", "AA-MILD", "left", 800.0,
+        started_at="2026-03-08T10:00:00Z",
+    )  # fmt: skip
+    engine.dispose()
+    assert res.status == usecases.ACCEPTED, res.problems
+    at = start("unit", unit="AA-MILD")
+    # two loops x 5 charts, plus the trace view, its histogram and its cycle matrix
+    assert len(at.get("plotly_chart")) == 13
+    assert any("exceeded the relief setting of 420 bar" in w.value for w in at.warning)
+    peaks = next(d.value for d in at.dataframe if "rise_rate_bar_per_s" in d.value.columns)
+    assert list(peaks["setting"]) == ["relief"] and peaks["peak_bar"].iloc[0] == 470.0
 
 
 def test_unit_page_unknown_tag_says_so(store):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboards import charts, data, ui
+from dashboards import charts, data, trace_charts, ui
 from monitor import usecases
 
 ctx = ui.context()
@@ -53,6 +53,33 @@ relief_note = (
     "Relief heat is an upper bound: it assumes full stall flow across the relief in every "
     "band at or above 95 % of the relief setting. With a pressure cut-off it is taken as nil."
 )
+
+
+def show_trace(pos: str, detail) -> None:  # noqa: ANN001 - usecases.ComponentDetail
+    """One stored pressure trace of the drive: envelope, histogram, cycles, peaks, notes."""
+    st.markdown("**Pressure traces**")
+    labels = [f"{d['period_start']} · {d['file']}" for d in detail.traces]
+    pick = st.selectbox("Trace", range(len(labels)), index=len(labels) - 1,
+                        format_func=labels.__getitem__, key=f"trace_pick_{pos}")  # fmt: skip
+    doc = detail.traces[pick]
+    relief, cutoff = detail.model.relief_bar, detail.model.cutoff_bar
+    for note in doc.get("notes") or []:
+        st.warning(note)
+    st.plotly_chart(trace_charts.trace_envelope_figure(doc.get("envelope"), relief, cutoff),
+                    key=f"trace_env_{pos}")  # fmt: skip
+    left, right = st.columns(2)
+    hist = trace_charts.trace_histogram_frame(doc.get("histogram"))
+    fig = charts.spectrum_figure(hist, relief, cutoff)
+    fig.update_layout(title_text="Time at pressure in this trace")
+    left.plotly_chart(fig, key=f"trace_hist_{pos}")
+    right.plotly_chart(trace_charts.cycle_matrix_figure(doc.get("cycles")),
+                       key=f"trace_cycles_{pos}")  # fmt: skip
+    peaks = trace_charts.trace_peaks_frame(doc.get("excursions"))
+    st.caption(f"Excursions above the relief and cut-off settings: {len(peaks)} listed")
+    st.dataframe(peaks, hide_index=True, key=f"trace_peaks_{pos}",
+                 column_config=ui.labels(peaks))  # fmt: skip
+
+
 positions = list(report.components)
 for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict=True):
     detail = report.components[pos]
@@ -78,6 +105,8 @@ for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict
         right.markdown("**Oil samples**")
         right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}",
                         column_config=ui.labels(detail.oil_samples))  # fmt: skip
+        if detail.traces:
+            show_trace(pos, detail)
 
 st.subheader("Service history")
 if report.service_history.empty:

@@ -4,7 +4,7 @@
 :mod:`~monitor.cli.commands` and :mod:`~monitor.cli.plan_demo` registers the commands.
 """
 
-from monitor.cli import calibrate, commands, plan_demo  # noqa: F401 - registers the commands
+from monitor.cli import calibrate, commands, plan_demo, trace  # noqa: F401 - registers commands
 from monitor.cli.common import main
 
 __all__ = ["main"]

@@ -184,7 +184,8 @@ def rank_cmd(
 @db_option
 @domain_errors
 def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
-    """Show one unit: its drives' status, recent uploads, readings and service history.
+    """Show one unit: its drives' status, recent uploads, readings, service history and
+    pressure traces (start, length, peak, cycles per hour above each range level, notes).
 
     Example: drivespan unit QX-104 --as-of 2026-12-01
     """
@@ -201,6 +202,7 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
                     "uploads": _frame_records(rep.uploads),
                     "case_drain_readings": readings,
                     "service_history": _frame_records(rep.service_history),
+                    "traces": _frame_records(rep.traces),
                     "summary": rep.summary,
                 },
                 indent=2,
@@ -221,9 +223,22 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
         click.echo(f"\ncase-drain readings, {pos}:")
         cols = ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"]
         emit(rows, "table", [*cols, "off_reference"])
+    _echo_traces(rep.traces)
     click.echo("")
     for line in rep.summary:
         click.echo(line)
+
+
+def _echo_traces(traces) -> None:  # noqa: ANN001 - pandas.DataFrame
+    """The unit's pressure traces as a table, their notes below it (nothing without any)."""
+    if traces.empty:
+        return
+    click.echo("\npressure traces:")
+    table = traces.drop(columns=["notes"]).round(1)
+    emit(_frame_records(table), "table", list(table.columns))
+    for row in traces.itertuples(index=False):
+        for note in filter(None, row.notes.split("\n\n")):
+            click.echo(f"  {row.position}, {row.file}: {note}")
 
 
 @main.group("service")

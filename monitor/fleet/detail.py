@@ -244,3 +244,45 @@ def _flag_sentence(flag: str, r: Mapping, params: StatusParams) -> str:
         lo=params.case_drain_dp_ratio_min,
         hi=params.case_drain_dp_ratio_max,
     )
+
+
+# --- pressure traces -------------------------------------------------------------------
+
+TRACE_LIST_COLUMNS = [
+    "position",
+    "file",
+    "started_at",
+    "duration_s",
+    "gaps_s",
+    "peak_bar",
+    "at_relief_s",
+    "at_cutoff_s",
+]
+"""Columns of :func:`trace_list` before the cycles per hour and the notes."""
+
+
+def trace_list(positions: list[str], docs: list[dict]) -> pd.DataFrame:
+    """One row per stored trace summary: start, length, gaps left out, peak, time at the
+    relief and at the cut-off [s], cycles per operating hour with a range at or above each
+    level (``cycles_per_h_ge_<L>bar`` [1/h]) and the notes joined by blank lines."""
+    rows = []
+    for pos, doc in zip(positions, docs, strict=True):
+        stalls = doc.get("stalls") or {}
+        row = {
+            "position": pos,
+            "file": doc.get("file"),
+            "started_at": doc.get("period_start"),
+            "duration_s": doc.get("duration_s"),
+            "gaps_s": doc.get("gap_total_s"),
+            "peak_bar": doc.get("max_high_side_bar"),
+            "at_relief_s": stalls.get("at_relief_s"),
+            "at_cutoff_s": stalls.get("at_cutoff_s"),
+        }
+        cycles = doc.get("cycles") or {}
+        for level, n in zip(cycles.get("levels_bar", []), cycles.get("per_hour", []), strict=True):
+            row[f"cycles_per_h_ge_{level:g}bar"] = n
+        row["notes"] = "\n\n".join(doc.get("notes") or [])
+        rows.append(row)
+    if not rows:
+        return pd.DataFrame(columns=[*TRACE_LIST_COLUMNS, "notes"])
+    return pd.DataFrame(rows)

@@ -262,6 +262,19 @@ rating_change = Table(
     Index("ix_rating_change_model_id", "model_id", "id"),
 )
 
+# What a pressure trace showed beyond its histogram (the trace's summary, cycles,
+# excursions and plotting envelope as JSON), kept with the upload file it was stored as.
+trace_summary = Table(
+    "trace_summary",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("file_id", ForeignKey("upload_file.id", ondelete="CASCADE"), nullable=False),
+    Column("component_id", ForeignKey("component.id", ondelete="CASCADE"), nullable=False),
+    Column("summary", Text, nullable=False),
+    UniqueConstraint("file_id", "component_id", name="uq_trace_summary_file_component"),
+    Index("ix_trace_summary_component_id", "component_id", "id"),
+)
+
 registry_document = Table(
     "registry_document",
     metadata,

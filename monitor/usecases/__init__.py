@@ -6,7 +6,7 @@ errors, opening a store), :mod:`~monitor.usecases.registry`,
 :mod:`~monitor.usecases.telemetry`, :mod:`~monitor.usecases.settings`,
 :mod:`~monitor.usecases.status`, :mod:`~monitor.usecases.events`,
 :mod:`~monitor.usecases.plan`, :mod:`~monitor.usecases.demo`,
-:mod:`~monitor.usecases.calibration`.
+:mod:`~monitor.usecases.calibration`, :mod:`~monitor.usecases.traces`.
 
 The public names are gathered here and loaded on first use (PEP 562), so that a command
 that only prints its help does not import the database layer or pandas.
@@ -60,6 +60,9 @@ _WHERE = {
     "recompute": "telemetry",
     "upload": "telemetry",
     "upload_path": "telemetry",
+    "TraceFileResult": "traces",
+    "ingest_trace": "traces",
+    "trace_sidecar": "traces",
 }
 
 __all__ = sorted(_WHERE)

@@ -14,6 +14,7 @@ from pathlib import Path
 
 from monitor.usecases.common import DomainError, FileResult, init_db
 from monitor.usecases.telemetry import upload
+from monitor.usecases.traces import ingest_trace
 
 MARKER = ".drivespan-demo"
 DEFAULT_FOLDER = Path("drivespan-demo")
@@ -51,6 +52,7 @@ def build_demo(
     an earlier demo and ``overwrite_foreign`` is False.
     """
     from demo_fleet.generate import generate
+    from demo_fleet.traces import write_traces
 
     folder = Path(folder)
     if folder_is_foreign(folder) and not overwrite_foreign:
@@ -66,6 +68,7 @@ def build_demo(
     fleet = generate(
         folder / "exports", seed=seed, end_date=end, years=years, units_scale=units_scale
     )
+    traces = write_traces(folder / "exports", Path(fleet.registry_path), end, seed=seed)
     db_url = f"sqlite:///{(folder / 'demo.db').resolve()}"
     engine = init_db(db_url)
     results = [
@@ -76,6 +79,8 @@ def build_demo(
         results.append(upload(engine, path.read_bytes(), path.name))
         if progress is not None:
             progress(path.name, i, len(files))
+    for path, fields in zip(traces.paths, traces.fields, strict=True):  # a hired-in loader
+        results.append(ingest_trace(engine, path.read_bytes(), path.name, **fields))
     broken = Path(fleet.broken_path)  # a faulty export, there to show a rejection
     results.append(upload(engine, broken.read_bytes(), broken.name))
     engine.dispose()

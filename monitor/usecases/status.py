@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import difflib
-from dataclasses import dataclass
+import json
+from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 
 import pandas as pd
@@ -12,6 +13,7 @@ from monitor import fleet
 from monitor.fleet import RANK_COLUMNS  # noqa: F401 - part of this module's interface
 from monitor.fleet.status import plain_value
 from monitor.store import queries, status_reads
+from monitor.store import traces as trace_rows
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, _today
 from monitor.usecases.settings import _params_for
@@ -75,11 +77,15 @@ class ComponentDetail:
     case_drain_limit_lpm: float | None
     relief_monthly: pd.DataFrame
     oil_samples: pd.DataFrame
+    traces: tuple = ()
+    """Stored pressure-trace summaries of the drive, oldest first (JSON documents, see
+    :func:`monitor.ingest.trace_summary.stored_summary`)."""
 
 
 @dataclass(frozen=True)
 class UnitReport:
-    """One unit: its status rows, per-component detail, uploads, service and summary."""
+    """One unit: its status rows, per-component detail, uploads, service and summary;
+    ``traces`` lists its stored pressure traces (:func:`monitor.fleet.detail.trace_list`)."""
 
     unit: dict
     status: pd.DataFrame
@@ -87,6 +93,7 @@ class UnitReport:
     service_history: pd.DataFrame
     uploads: pd.DataFrame
     summary: list
+    traces: pd.DataFrame = field(default_factory=lambda: fleet.trace_list([], []))
 
 
 def _unknown_unit(conn, tag: str) -> DomainError:  # noqa: ANN001
@@ -125,8 +132,15 @@ def unit_report(
         )
         readings = status_reads.readings_in_life(conn, t, inputs["component_id"].tolist())
         status = fleet.fleet_status(inputs, readings, as_of, params)
+        stored = trace_rows.unit_summaries(conn, unit["id"])
+        docs = [json.loads(text) for text in stored["summary"]]
+        by_component: dict[int, list] = {}
+        for cid, doc in zip(stored["component_id"].tolist(), docs, strict=True):
+            by_component.setdefault(int(cid), []).append(doc)
         details = {
-            row["position"]: _component_detail(conn, row, status, t, params)
+            row["position"]: _component_detail(
+                conn, row, status, t, params, tuple(by_component.get(row["component_id"], ()))
+            )
             for row in inputs.to_dict("records")
         }
         history = status_reads.service_history(conn, unit["id"])
@@ -139,12 +153,13 @@ def unit_report(
         service_history=history,
         uploads=uploads,
         summary=fleet.unit_summary(status, params),
+        traces=fleet.trace_list(stored["position"].tolist(), docs),
     )
 
 
 def _component_detail(
-    conn, row: dict, status: pd.DataFrame, t: datetime, params
-) -> ComponentDetail:  # noqa: ANN001, E501
+    conn, row: dict, status: pd.DataFrame, t: datetime, params, traces: tuple = ()
+) -> ComponentDetail:  # noqa: ANN001
     cid = int(row["component_id"])
     srow = status[status["component_id"] == cid].iloc[0]
     rebuilt = row["rebuilt_at"] if pd.notna(row["rebuilt_at"]) else None
@@ -168,6 +183,7 @@ def _component_detail(
         case_drain_limit_lpm=model.case_drain_limit,
         relief_monthly=fleet.relief_monthly(year),
         oil_samples=fleet.oil_samples(readings),
+        traces=traces,
     )
 
 
