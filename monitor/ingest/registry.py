@@ -32,11 +32,11 @@ from monitor.ingest.limits import (
     MAX_HOUR_METER_H,
     MAX_TEXT_CHARS,
     MAX_YAML_BYTES,
-    MAX_YAML_DEPTH,
     TIME_RANGE_TEXT,
     shorten,
 )
 from monitor.ingest.units import PRESSURE_RANGE_BAR
+from monitor.ingest.yaml_text import load_yaml
 
 ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
 """ISO 3448 viscosity grades [mm2/s at 40 degC] (ISO 3448, from memory)."""
@@ -171,83 +171,11 @@ def load_registry(source: str | bytes | IO, name: str) -> tuple[Registry | None,
             return None, [
                 Problem(name, None, None, None, "registry is not UTF-8 text: save it as UTF-8")
             ]
-    try:
-        loader = _BoundedLoader(text)
-        try:
-            node = loader.get_single_node()
-            doc = loader.construct_document(node) if node is not None else None
-        finally:
-            loader.dispose()
-        lines = _line_map(node)
-    except yaml.YAMLError as e:
-        return None, [_yaml_problem(e, name)]
-    return _check_document(doc, lines, name)
-
-
-def _yaml_problem(e: yaml.YAMLError, name: str) -> Problem:
-    """The problem of a YAML syntax error, with its line and column where known."""
-    mark = getattr(e, "problem_mark", None)
-    if mark is None:
-        return Problem(name, None, None, None, f"invalid YAML: {shorten(str(e), 300)}")
-    what = "; ".join(str(x) for x in (e.context, e.problem) if x)
-    return Problem(
-        name,
-        mark.line + 1,
-        f"column {mark.column + 1}",
-        None,
-        f"invalid YAML at line {mark.line + 1}, column {mark.column + 1}: {shorten(what, 300)}",
-    )
-
-
-class _BoundedLoader(yaml.SafeLoader):
-    """The safe loader, refusing aliases and nesting deeper than MAX_YAML_DEPTH, and
-    reading an integer no float can hold, or an impossible date, as plain text (which the
-    field checks then refuse with the field path)."""
-
-    def __init__(self, stream: str) -> None:
-        super().__init__(stream)
-        self._depth = 0
-
-    def compose_node(self, parent: yaml.Node | None, index: object) -> yaml.Node | None:
-        if self.check_event(yaml.AliasEvent):
-            mark = self.peek_event().start_mark
-            raise yaml.composer.ComposerError(
-                None,
-                None,
-                "aliases (`*name`) are not allowed in a fleet registry: write each entry "
-                "out in full",
-                mark,
-            )
-        self._depth += 1
-        try:
-            if self._depth > MAX_YAML_DEPTH:
-                raise yaml.composer.ComposerError(
-                    None,
-                    None,
-                    f"the registry is nested more than {MAX_YAML_DEPTH} levels deep: expected "
-                    "the sections oils, component_models, sites and units as in docs/formats.md",
-                    self.peek_event().start_mark,
-                )
-            return super().compose_node(parent, index)
-        finally:
-            self._depth -= 1
-
-    def construct_yaml_int(self, node: yaml.ScalarNode) -> int | str:
-        if len(node.value) > 300:  # beyond any float (and Python's digit limit)
-            return node.value
-        return super().construct_yaml_int(node)
-
-    def construct_yaml_timestamp(self, node: yaml.ScalarNode) -> object:
-        try:
-            return super().construct_yaml_timestamp(node)
-        except (ValueError, OverflowError):
-            return node.value
-
-
-_BoundedLoader.add_constructor("tag:yaml.org,2002:int", _BoundedLoader.construct_yaml_int)
-_BoundedLoader.add_constructor(
-    "tag:yaml.org,2002:timestamp", _BoundedLoader.construct_yaml_timestamp
-)
+    loaded = load_yaml(text, name)
+    if isinstance(loaded, Problem):
+        return None, [loaded]
+    doc, node = loaded
+    return _check_document(doc, _line_map(node), name)
 
 
 def _check_document(doc: Any, lines: dict[str, int], name: str) -> tuple:
