@@ -107,29 +107,60 @@ def _check_quantity(t: Table, probs: ProblemList) -> np.ndarray:
 
 
 def _check_group_constants(t: Table, g: Groups, probs: ProblemList, skip: np.ndarray) -> np.ndarray:
-    """Hour meter and mean speed must be the same on every row of one histogram.
+    """Hour meter and mean speed must be the same on every row of one histogram; a row
+    that differs from the value most rows of its histogram give is reported.
 
     Returns the histograms whose hour meter differs between rows (their hour sums and
-    hour-meter order are then not checked: which row is right is not known).
+    hour-meter order are then not checked: they would only echo the same mistake).
     """
     uneven = np.zeros(len(g.starts), dtype=bool)
     skip_rows = np.repeat(skip, g.ends - g.starts)
     for f in ("hour_meter_start", "hour_meter_end", "mean_speed"):
         v = g.sort(t.num[f])
         ref = np.repeat(v[g.starts], g.ends - g.starts)
-        differ = ~((v == ref) | (np.isnan(v) & np.isnan(ref))) & ~skip_rows
+        differ = ~_same(v, ref) & ~skip_rows
         if not differ.any():
             continue
+        ref = _group_mode(g, v)
+        differ = ~_same(v, ref) & ~skip_rows
         if f != "mean_speed":
             uneven |= np.logical_or.reduceat(differ, g.starts)
+        raw_ref = dict(zip(g.order[differ].tolist(), ref[differ].tolist(), strict=True))
         probs.add_rows(
             np.sort(g.order[differ]),
             f,
             t,
-            f"`{f}` differs from the first row of the same histogram (same unit, position, "
-            "period and quantity): give one value per histogram",
+            lambda r, f=f, raw_ref=raw_ref: (
+                f"`{t.labels.get(f, f)}` differs from the {fmt(raw_ref[r])} that the other rows "
+                "of the same histogram (same unit, position, period and quantity) give: give "
+                "one value per histogram"
+            ),
         )
     return uneven
+
+
+def _same(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    return (a == b) | (np.isnan(a) & np.isnan(b))
+
+
+def _group_mode(g: Groups, v: np.ndarray) -> np.ndarray:
+    """Per sorted row: the value most rows of its histogram give (the first row's value
+    when no value is more common than it)."""
+    o = np.lexsort((v, g.gs))
+    gv, vv = g.gs[o], v[o]
+    new = np.r_[True, (gv[1:] != gv[:-1]) | ~_same(vv[1:], vv[:-1])]
+    run = np.cumsum(new) - 1
+    count = np.bincount(run)[run]  # size of each row's run of equal values
+    first_count = count[np.argsort(o)][g.starts]  # run size of each histogram's first row
+    best = np.zeros(len(g.starts), dtype=np.int64)
+    np.maximum.at(best, gv, count)
+    mode = v[g.starts].copy()
+    better = np.flatnonzero(best > first_count)
+    if better.size:
+        at = np.flatnonzero(count == best[gv])  # rows of a most common run
+        hist, first = np.unique(gv[at], return_index=True)
+        mode[hist] = np.where(np.isin(hist, better), vv[at[first]], mode[hist])
+    return np.repeat(mode, g.ends - g.starts)
 
 
 def _check_overlaps(t: Table, g: Groups, probs: ProblemList) -> None:
