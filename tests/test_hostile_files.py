@@ -240,3 +240,36 @@ def test_a_huge_cell_is_echoed_short():
     assert len(p.message) < 300 and "longer than 80 characters" in p.message
     (p,) = problems(HIST.replace(b",2.5,", b",two and a half" + b"!" * 100_000 + b",", 1))
     assert len(str(p)) < 300
+
+
+# --- the same bounds at the command line ---------------------------------------------------
+
+
+def test_service_add_refuses_implausible_times_and_hour_meters(sqlite_url):
+    from click.testing import CliRunner
+
+    from monitor import cli
+
+    engine = usecases.init_db(sqlite_url)
+    usecases.upload(engine, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
+    engine.dispose()
+    base = ["service", "add", "LR-101", "--position", "left", "--kind", "rebuild", "--db"]
+    for at, hm, fragment in (
+        ("9999-01-01T00:00:00Z", "5000", "outside the plausible range 1970-01-01"),
+        ("2026-05-01T00:00:00Z", "1e308", "from 0 to 1000000 h"),
+        ("2026-05-01T00:00:00Z", "nan", "from 0 to 1000000 h"),
+    ):
+        res = CliRunner().invoke(cli.main, [*base, sqlite_url, "--at", at, "--hour-meter", hm])
+        assert res.exit_code == 1 and fragment in res.output, res.output
+
+
+def test_fleet_import_of_utf16_is_one_clear_refusal(sqlite_url, tmp_path):
+    from click.testing import CliRunner
+
+    from monitor import cli
+
+    f = tmp_path / "fleet.yaml"
+    f.write_bytes((DATA / "fleet.yaml").read_text().encode("utf-16"))
+    res = CliRunner().invoke(cli.main, ["fleet", "import", str(f), "--db", sqlite_url])
+    assert res.exit_code == 1 and "not UTF-8 text" in res.output
+    assert not isinstance(res.exception, UnicodeDecodeError)
