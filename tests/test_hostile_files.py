@@ -132,7 +132,7 @@ def test_json_over_the_size_limit_is_refused_before_parsing(monkeypatch):
 
     monkeypatch.setattr(jt, "MAX_JSON_BYTES", 1000)
     p = only(big_json(100), "larger than the 0 MiB limit", "big.json")
-    assert "export CSV" in p.message and MAX_JSON_BYTES == 64 * 2**20
+    assert "export CSV" in p.message and MAX_JSON_BYTES == 16 * 2**20
 
 
 # --- numbers ----------------------------------------------------------------------------

@@ -75,6 +75,12 @@ class ProblemList:
         self.file = file
         self.items: list[Problem] = []
         self.more = 0
+        self.stopped = False  # the reader gave up checking the rest of the file
+
+    @property
+    def full(self) -> bool:
+        """True once MAX_PROBLEMS are listed (a reader may then stop checking)."""
+        return len(self.items) >= MAX_PROBLEMS
 
     def add(self, line: int | None, column: str | None, value: object, message: str) -> None:
         if len(self.items) >= MAX_PROBLEMS:
@@ -105,6 +111,12 @@ class ProblemList:
             out.append(
                 Problem(self.file, None, None, None, f"{self.more} more problems not listed")
             )
+        if self.stopped:
+            msg = (
+                f"checking stopped after {MAX_PROBLEMS} problems: fix these and check the "
+                "file again to see the rest"
+            )
+            out.append(Problem(self.file, None, None, None, msg))
         return out
 
     def __bool__(self) -> bool:

@@ -75,12 +75,15 @@ def read_json_tables(data: bytes, probs: ProblemList) -> tuple[Table | None, Tab
     docs = doc if isinstance(doc, list) else [doc]
     bands, reads = _Bands(), _Readings()
     for d, item in enumerate(docs):
+        if probs.full:  # rejected anyway: do not walk the rest of a hostile file
+            probs.stopped = True
+            break
         prefix = f"[{d}]" if isinstance(doc, list) else ""
         if not isinstance(item, dict):
             probs.add(None, prefix or "$", None, "expected a JSON object `{...}` per upload")
             continue
         _json_doc(item, prefix, bands, reads, probs)
-    if not bands.hists and not reads.rows:
+    if not bands.hists and not reads.rows and not probs.stopped:
         probs.add(None, None, None, "the JSON holds no histograms and no readings")
     return (
         bands.table() if bands.hists else None,
@@ -176,6 +179,9 @@ def _json_doc(item: dict, p: str, bands: _Bands, reads: _Readings, probs: Proble
             probs.add(None, _join(p, key), None, f"`{key}` must be a list")
             continue
         for i, obj in enumerate(lst):
+            if probs.full:
+                probs.stopped = True
+                return
             path = f"{_join(p, key)}[{i}]"
             if not isinstance(obj, dict):
                 probs.add(None, path, None, "expected a JSON object `{...}`")
