@@ -83,7 +83,7 @@ def read_json_tables(data: bytes, probs: ProblemList) -> tuple[Table | None, Tab
             probs.add(None, prefix or "$", None, "expected a JSON object `{...}` per upload")
             continue
         _json_doc(item, prefix, bands, reads, probs)
-    if not bands.hists and not reads.rows and not probs.stopped:
+    if not bands.hists and not reads.rows and not probs:  # else it only echoes those
         probs.add(None, None, None, "the JSON holds no histograms and no readings")
     return (
         bands.table() if bands.hists else None,
@@ -238,7 +238,7 @@ class _Bands:
         width = np.maximum(n_s, 1)[hist]
         i = within // width
         j = np.where(n_s[hist] > 0, within % width, -1)
-        b = _Built(hs, hist, i, j)
+        b = _Built(hs, hist)
         b.edges("pressure", "pe", i, lambda h: U.to_bar(h["pe"], h["pu"]))
         b.edges("speed", "se", j, lambda h: np.asarray(h["se"], dtype=np.float64))
         b.per_row("hours", np.concatenate([h["hours"] for h in hs]), "")
@@ -273,31 +273,30 @@ class _Bands:
 class _Built:
     """Column arrays of the band table, built from the histograms with numpy."""
 
-    def __init__(self, hs: list[dict], hist: np.ndarray, i: np.ndarray, j: np.ndarray) -> None:
-        self.hs, self.hist, self.i, self.j = hs, hist, i, j
+    def __init__(self, hs: list[dict], hist: np.ndarray) -> None:
+        self.hs, self.hist = hs, hist
         self.texts: dict = {}
         self.num: dict = {}
         self.raw: dict = {}
         self.unit: dict = {}
 
     def edges(self, name: str, key: str, idx: np.ndarray, canon) -> None:  # noqa: ANN001
-        """``<name>_low``/``_high`` from the edge lists: edge ``idx`` and ``idx + 1``."""
+        """``<name>_low``/``_high``: edges ``idx`` and ``idx + 1`` of each row's histogram
+        (NaN where ``idx`` is -1: no speed band on a plain histogram)."""
         counts = np.array([len(h[key]) for h in self.hs], dtype=np.int64)
         start = np.cumsum(counts) - counts
-        flat_raw = np.array([x for h in self.hs for x in h[key]], dtype=np.float64)
+        flat_raw = np.array([x for h in self.hs for x in h[key]] + [np.nan], dtype=np.float64)
         with np.errstate(over="ignore"):
-            flat = np.concatenate([canon(h) for h in self.hs]) if flat_raw.size else flat_raw
+            flat = np.concatenate([*(canon(h) for h in self.hs if h[key]), [np.nan]])
+        nan_at = len(flat) - 1  # the NaN appended to both
         at = start[self.hist] + idx
-        valid = idx >= 0
-        at = np.where(valid, at, 0)
+        unit = "rpm"
+        if name == "pressure":
+            unit = np.array([h["pu"] for h in self.hs], dtype=object)[self.hist]
         for side, off in (("low", 0), ("high", 1)):
+            pick = np.where(idx >= 0, at + off, nan_at)
             f = f"{name}_{side}"
-            pick = np.minimum(at + off, max(len(flat) - 1, 0))
-            self.num[f] = np.where(valid, flat[pick] if flat.size else np.nan, np.nan)
-            self.raw[f] = np.where(valid, flat_raw[pick] if flat.size else np.nan, np.nan)
-        unit = np.array([h["pu"] for h in self.hs], dtype=object) if name == "pressure" else None
-        for side in ("low", "high"):
-            self.unit[f"{name}_{side}"] = unit[self.hist] if unit is not None else "rpm"
+            self.num[f], self.raw[f], self.unit[f] = flat[pick], flat_raw[pick], unit
 
     def per_row(self, f: str, values: np.ndarray, unit: str) -> None:
         self.num[f] = self.raw[f] = values
