@@ -9,12 +9,16 @@ no records. The formats are described for users in ``docs/formats.md``.
 This module detects what a file holds and hands it on:
 
 - :mod:`monitor.ingest.csv_tables` reads a CSV into a column table,
-- :mod:`monitor.ingest.json_tables` reads JSON documents into column tables,
+- :mod:`monitor.ingest.json_tables` reads JSON documents into column tables (the text
+  loaded within bounds by :mod:`monitor.ingest.json_text`),
 - :mod:`monitor.ingest.histograms` validates band tables and cuts them into histograms
   (records built by :mod:`monitor.ingest.assemble`),
 - :mod:`monitor.ingest.readings` validates readings tables,
 - :mod:`monitor.ingest.common` holds the column specs, the problem list and the checks
-  shared by all of them.
+  shared by all of them; :mod:`monitor.ingest.limits` the bounds on what is accepted.
+
+Before any of that, the bytes must be UTF-8 text (UTF-16 and Latin-1 are named), and a
+carriage return that does not end a CRLF pair is read as a line end.
 """
 
 from __future__ import annotations
