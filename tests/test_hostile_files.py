@@ -273,3 +273,21 @@ def test_fleet_import_of_utf16_is_one_clear_refusal(sqlite_url, tmp_path):
     res = CliRunner().invoke(cli.main, ["fleet", "import", str(f), "--db", sqlite_url])
     assert res.exit_code == 1 and "not UTF-8 text" in res.output
     assert not isinstance(res.exception, UnicodeDecodeError)
+
+
+def test_text_limits_are_the_store_column_sizes():
+    from monitor.ingest.limits import MAX_TEXT_CHARS
+    from monitor.store import db
+
+    columns = {
+        "tag": db.unit.c.tag,
+        "unit": db.unit.c.tag,
+        "serial": db.component.c.serial,
+        "position": db.component.c.position,
+        "name": db.site.c.name,
+        "site": db.site.c.name,
+        "oil": db.oil.c.name,
+        "model": db.component_model.c.name,
+        "machine_type": db.unit.c.machine_type,
+    }
+    assert {k: c.type.length for k, c in columns.items()} == MAX_TEXT_CHARS
