@@ -1,7 +1,9 @@
 """Start the dashboard as a Streamlit server in a child process.
 
 The database URL reaches the app through the ``DRIVESPAN_DB`` environment variable
-(the same variable the CLI reads), so the URL never shows in the process list.
+(the same variable the CLI reads), so the URL never shows in the process list; the
+hash of an optional dashboard password (never the password) travels the same way in
+``DRIVESPAN_DASHBOARD_PASSWORD_HASH`` (see :mod:`dashboards.gate`).
 """
 
 from __future__ import annotations
@@ -14,6 +16,8 @@ from pathlib import Path
 APP = Path(__file__).resolve().parent / "streamlit_app.py"
 ROOT = APP.parent.parent
 ENV_URL = "DRIVESPAN_DB"
+ENV_PASSWORD_HASH = "DRIVESPAN_DASHBOARD_PASSWORD_HASH"
+"""Same name as :data:`monitor.usecases.access.PASSWORD_HASH_ENV` (a test checks)."""
 MAX_UPLOAD_MB = 50
 """Largest accepted upload [MB]; the upload page checks the same number in code."""
 
@@ -46,11 +50,15 @@ def command(
     ]  # fmt: skip
 
 
-def environment(db_url: str | None = None) -> dict[str, str]:
-    """The child's environment: ours plus the database URL and the project on the path."""
+def environment(db_url: str | None = None, password_hash: str | None = None) -> dict[str, str]:
+    """The child's environment: ours plus the database URL, the password hash (or none:
+    an inherited one is removed) and the project on the path."""
     env = dict(os.environ)
     if db_url:
         env[ENV_URL] = db_url
+    env.pop(ENV_PASSWORD_HASH, None)
+    if password_hash:
+        env[ENV_PASSWORD_HASH] = password_hash
     env["PYTHONPATH"] = os.pathsep.join(p for p in (str(ROOT), env.get("PYTHONPATH")) if p)
     return env
 
@@ -60,14 +68,16 @@ def run(
     port: int = 8501,
     host: str = "127.0.0.1",
     headless: bool = True,
+    password_hash: str | None = None,
 ) -> subprocess.Popen:
     """Start the dashboard server and return its process (the caller stops it).
 
     ``db_url`` defaults to ``$DRIVESPAN_DB`` and then to the store's default SQLite
-    file, as for the CLI.
+    file, as for the CLI. With ``password_hash`` (from
+    :func:`monitor.usecases.access.hash_password`) the app asks for the password first.
     """
     return subprocess.Popen(
         command(db_url, port=port, host=host, headless=headless),
-        env=environment(db_url),
+        env=environment(db_url, password_hash),
         cwd=str(ROOT),
     )

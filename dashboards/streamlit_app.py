@@ -15,9 +15,12 @@ ROOT = Path(__file__).resolve().parent.parent
 if str(ROOT) not in sys.path:  # `streamlit run` puts only this folder on the path
     sys.path.insert(0, str(ROOT))
 
-from dashboards import ui  # noqa: E402
+from dashboards import gate, ui  # noqa: E402
 
 st.set_page_config(page_title="drivespan", page_icon=":material/build:", layout="wide")
+
+if not gate.unlocked():  # an optional password, asked for before any page
+    st.stop()
 
 PAGES = [
     st.Page("app_pages/fleet.py", title="Fleet", icon=":material/list:", url_path="fleet",

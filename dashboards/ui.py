@@ -12,6 +12,7 @@ import pandas as pd
 import streamlit as st
 
 from dashboards import charts, data
+from monitor import usecases
 
 CAUTION = (
     "**Estimates only.** Remaining hours and due dates are estimates from logged loads "
@@ -95,13 +96,7 @@ def context() -> Context:
 
 def _safe_url(url: str | None) -> str:
     """The URL with any password masked."""
-    if not url:
-        return "default SQLite file"
-    if "@" in url and "://" in url:
-        scheme, rest = url.split("://", 1)
-        creds, host = rest.rsplit("@", 1)
-        return f"{scheme}://{creds.split(':', 1)[0]}:***@{host}"
-    return url
+    return usecases.display_url(url)
 
 
 def status_chips(fleet: pd.DataFrame) -> str:

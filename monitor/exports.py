@@ -4,8 +4,9 @@ No database access: every function takes a DataFrame or a :class:`~monitor.plann
 and returns ``bytes`` that the caller writes to a file, a download button or a response.
 
 Spreadsheet safety: a text cell that begins with ``=``, ``+``, ``-``, ``@`` (or a tab or
-carriage return) could be run as a formula when the file is opened in a spreadsheet
-program, so such cells are prefixed with a single quote ``'`` in CSV and XLSX output,
+carriage return), also after leading blanks (spreadsheet programs skip them), could be
+run as a formula when the file is opened in a spreadsheet program, so such cells are
+prefixed with a single quote ``'`` in CSV and XLSX output,
 and XLSX text cells are always stored as strings, never as formulas (OWASP, "CSV
 Injection", common practice).
 
@@ -36,6 +37,10 @@ from monitor.planning import ESTIMATE_NOTICE, Plan, plan_summary
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 """Leading characters that make a spreadsheet treat a text cell as a formula."""
 
+_BLANKS = " \u00a0\u3000\n\x0b\x0c"
+"""Blanks a spreadsheet program may skip before a formula (space, no-break space,
+ideographic space, line feed, vertical tab, form feed; tab and CR are triggers)."""
+
 PLAN_FORMATS = ("csv", "xlsx", "ics")
 """Formats :func:`plan_export_bytes` can write."""
 
@@ -58,10 +63,13 @@ def neutralise_text(value: object) -> object:
     Returns
     -------
     object
-        ``"'" + value`` when ``value`` is a ``str`` starting with one of
-        :data:`FORMULA_TRIGGERS`, else ``value``.
+        ``"'" + value`` when ``value`` is a ``str`` that starts with one of
+        :data:`FORMULA_TRIGGERS`, or whose first character that is not a blank is one,
+        else ``value``.
     """
-    if isinstance(value, str) and value.startswith(FORMULA_TRIGGERS):
+    if isinstance(value, str) and (
+        value.startswith(FORMULA_TRIGGERS) or value.lstrip(_BLANKS).startswith(FORMULA_TRIGGERS)
+    ):
         return "'" + value
     return value
 

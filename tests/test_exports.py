@@ -83,6 +83,32 @@ def test_neutralise_text_prefixes_only_formula_like_text():
     assert neutralise_text(-2.5) == -2.5  # numbers are not text
 
 
+BLANK_LED = [" =1+1", "  +SUM(A1:A2)", "\u00a0-2+3", " \n@cmd", "\t=1", " plain", " a=b"]
+
+
+def test_neutralise_text_also_after_leading_blanks():
+    # a spreadsheet program skips leading blanks before a formula (OWASP, "CSV Injection")
+    assert [neutralise_text(v) for v in BLANK_LED] == [
+        "' =1+1",
+        "'  +SUM(A1:A2)",
+        "'\u00a0-2+3",
+        "' \n@cmd",
+        "'\t=1",
+        " plain",
+        " a=b",
+    ]
+
+
+def test_csv_and_xlsx_neutralise_blank_led_formulas():
+    df = pd.DataFrame({"unit": BLANK_LED})
+    rows = list(csv.reader(io.StringIO(frame_to_csv_bytes(df).decode("utf-8"))))
+    assert [r[0] for r in rows[1:]] == [neutralise_text(v) for v in BLANK_LED]
+    ws = openpyxl.load_workbook(io.BytesIO(frame_to_xlsx_bytes(df, "units"))).active
+    cells = [ws.cell(row=i + 2, column=1) for i in range(len(BLANK_LED))]
+    assert all(c.data_type == "s" for c in cells)
+    assert [c.value.startswith("'") for c in cells] == [True] * 5 + [False] * 2
+
+
 def test_csv_neutralises_text_cells_and_keeps_numbers():
     df = pd.DataFrame({"unit": NASTY, "remaining_h": [-1.5, 0, 1, 2, 3, 4]})
     rows = list(csv.reader(io.StringIO(frame_to_csv_bytes(df).decode("utf-8"))))

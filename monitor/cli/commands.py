@@ -35,7 +35,7 @@ def init(db_url: str) -> None:
     Example: drivespan init --db sqlite:///fleet.db
     """
     usecases.init_db(db_url).dispose()
-    click.echo(f"schema is up to date in {db_url}")
+    click.echo(f"schema is up to date in {usecases.display_url(db_url)}")
 
 
 @main.group()

@@ -133,18 +133,34 @@ def fleet_plain(value):  # noqa: ANN001, ANN201
 @click.option(
     "--host", default="127.0.0.1", show_default=True, help="Address to bind (loopback by default)."
 )
+@click.option(
+    "--password-file",
+    type=click.Path(exists=True, dir_okay=False, path_type=Path),
+    help="Ask for the password on the first line of this file before showing any page.",
+)
 @db_option
 @domain_errors
-def dashboard_cmd(port: int, host: str, db_url: str) -> None:
+def dashboard_cmd(port: int, host: str, password_file: Path | None, db_url: str) -> None:
     """Serve the Streamlit dashboard on the same store as the CLI (Ctrl+C stops it).
+
+    Bound to 127.0.0.1 it is reachable from this machine only. On another address
+    anyone on the network can read and change the fleet data unless --password-file
+    is given (and even then the traffic is not encrypted: see README, Security).
 
     Example: drivespan dashboard --db sqlite:///fleet.db --port 8502
     """
     from dashboards import launch
 
+    password_hash = None
+    if password_file is not None:
+        password_hash = usecases.hash_password(usecases.read_password_file(password_file))
     usecases.init_db(db_url).dispose()
-    click.echo(f"dashboard on http://{host}:{port}  (store {db_url}; Ctrl+C to stop)")
-    proc = launch.run(db_url, port=port, host=host)
+    if not usecases.is_loopback(host):
+        _exposed_warning(host, port, password_hash is not None)
+    guard = "password required" if password_hash else "no password"
+    shown = usecases.display_url(db_url)
+    click.echo(f"dashboard on http://{host}:{port}  (store {shown}; {guard}; Ctrl+C to stop)")
+    proc = launch.run(db_url, port=port, host=host, password_hash=password_hash)
     try:
         proc.wait()
     except KeyboardInterrupt:
@@ -172,6 +188,28 @@ def _calibration_line(engine) -> str:  # noqa: ANN001
         f"{factor:.2f} x the rated life ({DEMO_CONFIDENCE:.0%} interval {low:.2f}-{high:.2f}, "
         f"{row['failures']} failures, {row['suspensions']} suspensions); an estimate, "
         "the maker's ratings and a qualified engineer decide"
+    )
+
+
+def _exposed_warning(host: str, port: int, has_password: bool) -> None:
+    """A loud note on stderr when the dashboard listens beyond this machine."""
+    if has_password:
+        click.secho(
+            f"note: the dashboard listens on {host}:{port} beyond this machine; it asks for "
+            "the password, but the traffic (password included) is not encrypted: use a "
+            "reverse proxy with TLS for anything but a trusted network (README, Security)",
+            err=True,
+            fg="yellow",
+        )
+        return
+    click.secho(
+        f"WARNING: the dashboard listens on {host}:{port} WITHOUT A PASSWORD: anyone who can "
+        "reach this machine can read the fleet data and upload files into the store. "
+        "Use --password-file FILE, or keep --host 127.0.0.1 behind a reverse proxy with "
+        "real authentication (README, Security).",
+        err=True,
+        fg="red",
+        bold=True,
     )
 
 
@@ -242,9 +280,10 @@ def demo_cmd(
     records = usecases.rank_records(df)[:15]
     emit(_table_rows(records, RANK_TABLE_COLUMNS), "table", RANK_TABLE_COLUMNS)
     _notice()
+    shown = usecases.display_url(res.db_url)
     click.echo(f"\n{_calibration_line(engine)}")
-    click.echo(f"\nmore: drivespan rank --db {res.db_url} --as-of {res.as_of.isoformat()}")
-    click.echo(f"      drivespan calibrate --db {res.db_url}")
+    click.echo(f"\nmore: drivespan rank --db {shown} --as-of {res.as_of.isoformat()}")
+    click.echo(f"      drivespan calibrate --db {shown}")
     if no_dashboard:
         return
     from dashboards import launch

@@ -17,9 +17,20 @@ import pandas as pd
 
 from monitor.domain.records import Problem
 from monitor.ingest import units as U
+from monitor.ingest.limits import (
+    EARLIEST_TIME,
+    LATEST_TIME,
+    MAX_HOUR_METER_H,
+    MAX_TEXT_CHARS,
+    TIME_RANGE_TEXT,
+    shorten,
+)
 
 MAX_PROBLEMS = 200
 """Problems listed per file; the rest are counted in one closing note."""
+
+ROW = "*row*"
+"""Key of :attr:`Table.refused` for rows refused whole (e.g. a CSV row cut short)."""
 
 HOURS_TOLERANCE_H = 0.25
 """Absolute tolerance of histogram hours vs hour-meter advance [h] (common practice, no source)."""
@@ -64,12 +75,18 @@ class ProblemList:
         self.file = file
         self.items: list[Problem] = []
         self.more = 0
+        self.stopped = False  # the reader gave up checking the rest of the file
+
+    @property
+    def full(self) -> bool:
+        """True once MAX_PROBLEMS are listed (a reader may then stop checking)."""
+        return len(self.items) >= MAX_PROBLEMS
 
     def add(self, line: int | None, column: str | None, value: object, message: str) -> None:
         if len(self.items) >= MAX_PROBLEMS:
             self.more += 1
             return
-        shown = None if value is None else str(value)
+        shown = None if value is None else shorten(value)
         self.items.append(Problem(self.file, line, column, shown, message))
 
     def add_rows(
@@ -94,6 +111,12 @@ class ProblemList:
             out.append(
                 Problem(self.file, None, None, None, f"{self.more} more problems not listed")
             )
+        if self.stopped:
+            msg = (
+                f"checking stopped after {MAX_PROBLEMS} problems: fix these and check the "
+                "file again to see the rest"
+            )
+            out.append(Problem(self.file, None, None, None, msg))
         return out
 
     def __bool__(self) -> bool:
@@ -117,6 +140,23 @@ class Table:
     where: Callable[[int, str], tuple[int | None, str]]
     line0: np.ndarray | None = None  # CSV: source line of each row
     labels: dict[str, str] = field(default_factory=dict)  # column -> name in the file
+    refused: dict[str, np.ndarray] = field(default_factory=dict)  # column -> rows reported
+
+    def refuse(self, f: str, rows: np.ndarray) -> None:
+        """Note that the value of column ``f`` on the rows of mask ``rows`` was reported
+        as bad: later checks of ``f`` skip them, and checks derived from them are not
+        reported as separate problems."""
+        old = self.refused.get(f)
+        self.refused[f] = rows.copy() if old is None else old | rows
+
+    def bad_rows(self, *fields: str) -> np.ndarray:
+        """Mask of rows with a value of one of ``fields`` (default: any) reported bad,
+        or refused whole."""
+        out = np.zeros(self.n, dtype=bool)
+        for f, rows in self.refused.items():
+            if not fields or f in fields or f == ROW:
+                out |= rows
+        return out
 
     def locate(self, r: int, f: str) -> tuple[int | None, str]:
         return self.where(r, f)
@@ -140,12 +180,29 @@ class Table:
 
 
 def check_text(t: Table, fields: tuple[str, ...], probs: ProblemList) -> None:
-    """Blank identifiers; for each distinct bad value report its first row and a count."""
+    """Blank or over-long identifiers (see :data:`~monitor.ingest.limits.MAX_TEXT_CHARS`);
+    for each distinct bad value report its first row and a count."""
     for f in fields:
         if f not in t.text:
             continue
         codes, uniq = t.text[f]
-        first_rows(probs, t, f, codes, uniq == "", lambda v, f=f: f"`{f}` must not be blank")
+        blank = np.asarray(uniq == "", dtype=bool)
+        most = MAX_TEXT_CHARS[f]
+        long = np.array([len(str(u)) > most for u in uniq], dtype=bool)
+        first_rows(probs, t, f, codes, blank, lambda v, f=f: f"`{f}` must not be blank")
+        first_rows(
+            probs,
+            t,
+            f,
+            codes,
+            long,
+            lambda v, f=f, most=most: (
+                f"`{f}` is longer than {most} characters: expected a "
+                f"{'unit tag' if f == 'unit' else 'drive position'} as in the fleet registry"
+            ),
+        )
+        if blank.any() or long.any():
+            t.refuse(f, (blank | long)[codes])
 
 
 def first_rows(
@@ -159,12 +216,16 @@ def first_rows(
     """One problem per distinct bad value, at its first row, noting how many rows repeat it."""
     if not bad_uniq.any():
         return
-    rows = np.flatnonzero(bad_uniq[codes])
+    rows = np.flatnonzero(bad_uniq[codes] & ~t.bad_rows(ROW))
+    if rows.size == 0:
+        return
     _, first, counts = np.unique(codes[rows], return_index=True, return_counts=True)
     order = np.argsort(rows[first])
-    for k in order.tolist():
+    room = max(0, MAX_PROBLEMS - len(probs.items))
+    probs.more += max(0, len(order) - room)
+    for k in order[:room].tolist():
         r = int(rows[first[k]])
-        text = message(t.value(r, f) or "")
+        text = message(shorten(t.value(r, f) or ""))
         if counts[k] > 1:
             text += f" (the same value is on {counts[k] - 1} more rows)"
         line, column = t.locate(r, f)
@@ -174,61 +235,107 @@ def first_rows(
 def parse_times(t: Table, f: str, probs: ProblemList) -> np.ndarray:
     """Parse a timestamp column: int64 ns since the epoch (UTC), NaT-int where invalid.
 
-    Each distinct string is parsed once; the offset is required (checked by regex).
+    Each distinct string is parsed once; the offset is required (checked by regex) and
+    the time must lie in the plausible range :data:`~monitor.ingest.limits.EARLIEST_TIME`
+    to :data:`~monitor.ingest.limits.LATEST_TIME` (the range is checked before the
+    conversion to nanoseconds, which cannot hold dates outside 1677-2262).
     """
     codes, uniq = t.text[f]
     strs = pd.Series(uniq, dtype=object).astype(str)
     shaped = strs.str.match(_TS_RE).to_numpy(dtype=bool)
     parsed = pd.to_datetime(strs.where(shaped, None), utc=True, format="ISO8601", errors="coerce")
-    ns = parsed.to_numpy(dtype="datetime64[ns]").astype(np.int64)
-    bad = ~shaped | parsed.isna().to_numpy()
+    valid = parsed.notna().to_numpy()
+    inside = ((parsed >= EARLIEST_TIME) & (parsed < LATEST_TIME)).to_numpy(dtype=bool)
+    ns = parsed.where(inside).dt.as_unit("ns").to_numpy(dtype="datetime64[ns]").astype(np.int64)
+    bad = ~shaped | ~inside
+    outside = set(strs[shaped & valid & ~inside].map(shorten))
 
     def msg(v: str) -> str:
         if not v:
             return f"`{f}` is blank: {_TS_HELP}"
         if _TS_NO_OFFSET_RE.match(v):
             return f"timestamp `{v}` has no UTC offset: add `Z` or an offset such as `+02:00`"
+        if v in outside:
+            return (
+                f"timestamp `{v}` is outside the plausible range {TIME_RANGE_TEXT}: check "
+                "the date (a typo in the year, or a logger clock that was never set)"
+            )
         return f"`{v}` is not a valid ISO 8601 timestamp: {_TS_HELP}"
 
     first_rows(probs, t, f, codes, bad, msg)
+    if bad.any():
+        t.refuse(f, bad[codes])
     return ns[codes]
 
 
 def check_numbers(
-    t: Table, f: str, kind: str | None, probs: ProblemList, required: bool, minimum: float = 0.0
+    t: Table,
+    f: str,
+    kind: str | None,
+    probs: ProblemList,
+    required: bool,
+    minimum: float = 0.0,
+    maximum: float | None = None,
 ) -> None:
-    """Flag missing (when required), infinite, below-minimum and out-of-range values."""
+    """Flag missing (when required), infinite, below-minimum, above-maximum and
+    out-of-range values of column ``f``; rows already reported for ``f`` are skipped.
+
+    ``maximum`` [the column's unit] defaults to none for columns with a unit ``kind``
+    (their valid range applies) and to :data:`~monitor.ingest.limits.MAX_HOUR_METER_H`
+    for the others (hour meters and hours).
+    """
     v = t.num[f]
-    if _all_valid(v, kind, required, minimum):
+    top = maximum if maximum is not None else (np.inf if kind else MAX_HOUR_METER_H)
+    if _all_valid(v, kind, required, minimum, top):
         return
+    done = t.bad_rows(f)
     with np.errstate(invalid="ignore"):
-        missing = np.isnan(v) if required else np.zeros(len(v), dtype=bool)
-        inf = np.isinf(v)
-        low = (v < minimum) & ~inf
-        rng = U.out_of_range(v, kind) & ~low & ~inf if kind else np.zeros(len(v), bool)
+        missing = np.isnan(v) & ~done if required else np.zeros(len(v), dtype=bool)
+        inf = np.isinf(t.raw[f]) & ~done
+        low = (v < minimum) & ~inf & ~done
+        high = (v > top) & ~np.isinf(v) & ~done
+        rng = U.out_of_range(v, kind) & ~low & ~inf & ~done if kind else np.zeros(len(v), bool)
     label = t.labels.get(f, f)
     what = f"a number >= {fmt(minimum)}"
     if missing.any():
         probs.add_rows(np.flatnonzero(missing), f, t, f"`{label}` is missing: expected {what}")
-    if inf.any() or low.any():
-        probs.add_rows(np.flatnonzero(inf | low), f, t, f"`{label}` must be {what}")
+    if inf.any():
+        probs.add_rows(
+            np.flatnonzero(inf), f, t, f"`{label}` is not a finite number: expected {what}"
+        )
+    if low.any():
+        probs.add_rows(np.flatnonzero(low), f, t, f"`{label}` must be {what}")
+    if high.any():
+        probs.add_rows(
+            np.flatnonzero(high),
+            f,
+            t,
+            f"`{label}` is above the plausible maximum of {fmt(top)} h: check the value "
+            "and that it is given in hours",
+        )
     if rng.any():
-        lo, hi = U.RANGES[kind]
-        canon = U.CANONICAL[kind]
-
-        def m(r: int) -> str:
-            return (
-                f"{fmt(t.raw[f][r])} {t.unit_at(f, r)} is {v[r]:.1f} {canon}, outside the valid "
-                f"range {fmt(lo)}-{fmt(hi)} {canon}: check the value and the unit"
-            )
-
-        probs.add_rows(np.flatnonzero(rng), f, t, m)
+        _report_range(t, f, kind, rng, probs)
+    t.refuse(f, missing | inf | low | high | rng)
 
 
-def _all_valid(v: np.ndarray, kind: str | None, required: bool, minimum: float) -> bool:
+def _report_range(t: Table, f: str, kind: str, rng: np.ndarray, probs: ProblemList) -> None:
+    lo, hi = U.RANGES[kind]
+    canon = U.CANONICAL[kind]
+    v = t.num[f]
+
+    def m(r: int) -> str:
+        return (
+            f"{fmt(t.raw[f][r])} {t.unit_at(f, r)} is {v[r]:.1f} {canon}, outside the valid "
+            f"range {fmt(lo)}-{fmt(hi)} {canon}: check the value and the unit"
+        )
+
+    probs.add_rows(np.flatnonzero(rng), f, t, m)
+
+
+def _all_valid(v: np.ndarray, kind: str | None, required: bool, minimum: float, top: float) -> bool:
     """True if no value of ``v`` needs a problem (one pass for the common, clean case)."""
     lower = max(minimum, U.RANGES[kind][0]) if kind else minimum
-    upper = U.RANGES[kind][1] if kind else np.finfo(np.float64).max
+    upper = min(U.RANGES[kind][1], top) if kind else top
     with np.errstate(invalid="ignore"):
         ok = (v >= lower) & (v <= upper)
     if not required:

@@ -22,13 +22,16 @@ from monitor.ingest.common import (
     HIST_REQUIRED,
     HIST_TEXT,
     HIST_UNIT_COLUMNS,
+    MAX_PROBLEMS,
     READ_NUMBERS,
     READ_REQUIRED,
     READ_TEXT,
     READ_UNIT_COLUMNS,
+    ROW,
     ProblemList,
     Table,
 )
+from monitor.ingest.limits import shorten
 
 HISTOGRAM = "histogram"
 READINGS = "readings"
@@ -44,7 +47,11 @@ def read_csv_table(data: bytes, head: str, probs: ProblemList) -> tuple[str, Tab
     """
     first = head.split("\n", 1)[0].rstrip("\r")
     sep = ";" if first.count(";") > first.count(",") else ","
-    header = [h.strip() for h in next(csv.reader([first], delimiter=sep))]
+    try:
+        header = [h.strip() for h in next(csv.reader([first], delimiter=sep))]
+    except csv.Error as e:
+        probs.add(1, None, None, f"cannot read the header line: {e}")
+        return None
     spec = _spec(header, first, probs)
     if spec is None:
         return None
@@ -54,7 +61,7 @@ def read_csv_table(data: bytes, head: str, probs: ProblemList) -> tuple[str, Tab
     frame = _read_frame(data, sep, header, cols, spec[0], probs)
     if frame is None:
         return None
-    return spec[4], _csv_table(frame, header, cols, spec[0], sep, probs)
+    return spec[4], _csv_table(data, frame, header, cols, spec[0], sep, probs)
 
 
 def _spec(header: list[str], first: str, probs: ProblemList) -> tuple | None:
@@ -67,7 +74,7 @@ def _spec(header: list[str], first: str, probs: ProblemList) -> tuple | None:
     probs.add(
         1,
         None,
-        first[:80],
+        first,
         "cannot tell what this file holds: a histogram CSV needs the columns "
         f"{', '.join(HIST_REQUIRED)} (pressure columns with a unit suffix such as "
         "`pressure_low_bar`); a readings CSV needs "
@@ -106,8 +113,8 @@ def _resolve_column(
     prefix = next((p for p in unit_cols if key == p or key.startswith(p + "_")), None)
     if prefix is None:
         known = [*plain] + [f"{p}_<{'|'.join(U.SHORT_SPELLINGS[k])}>" for p, k in unit_cols.items()]
-        msg = f"unknown column `{h}` in a {kind} CSV: known columns are {', '.join(known)}"
-        probs.add(1, h, None, msg)
+        msg = f"unknown column `{shorten(h)}` in a {kind} CSV: known columns are {', '.join(known)}"
+        probs.add(1, shorten(h), None, msg)
         return None
     names = " or ".join(f"`{prefix}_{s}`" for s in U.SHORT_SPELLINGS[unit_cols[prefix]])
     if key == prefix:
@@ -117,7 +124,12 @@ def _resolve_column(
     try:
         return prefix, U.normalise_unit(unit_cols[prefix], suffix)
     except ValueError:
-        probs.add(1, h, None, f"column `{h}` has unknown unit `{suffix}`: name it {names}")
+        probs.add(
+            1,
+            shorten(h),
+            None,
+            f"column `{shorten(h)}` has unknown unit `{shorten(suffix)}`: name it {names}",
+        )
         return None
 
 
@@ -176,12 +188,15 @@ def _read_frame(
         )
         return None
     except pd.errors.ParserError as e:
-        _ragged(e, sep, probs)
+        _ragged(e, data, sep, header, probs)
         return None
 
 
-def _ragged(e: pd.errors.ParserError, sep: str, probs: ProblemList) -> None:
-    """The problem for a row with the wrong number of fields (or any other read error)."""
+def _ragged(
+    e: pd.errors.ParserError, data: bytes, sep: str, header: list[str], probs: ProblemList
+) -> None:
+    """The problem for a row with the wrong number of fields, an unbalanced quote, or any
+    other read error, with its line (and column where it can be told)."""
     m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
     if m:
         probs.add(
@@ -191,8 +206,37 @@ def _ragged(e: pd.errors.ParserError, sep: str, probs: ProblemList) -> None:
             f"line {m.group(2)} has {m.group(3)} fields but the header has {m.group(1)}: "
             f"every row needs one value per column, separated by `{sep}`",
         )
-    else:
-        probs.add(None, None, None, f"cannot read the CSV: {e}")
+        return
+    m = re.search(r"EOF inside string starting at row (\d+)", str(e))
+    if m:
+        line = int(m.group(1)) + 1
+        column = _quote_column(data, line, sep, header)
+        probs.add(
+            line,
+            column,
+            None,
+            f"line {line}{f', column `{column}`' if column else ''}: a value opens a quote "
+            '`"` that is never closed: close the quote or remove it (a quote inside a '
+            'quoted value is written twice: `""`)',
+        )
+        return
+    probs.add(None, None, None, f"cannot read the CSV: {shorten(str(e), 200)}")
+
+
+def _quote_column(data: bytes, line: int, sep: str, header: list[str]) -> str | None:
+    """Header name of the field where the first quote of ``line`` (1-based) opens."""
+    start = 0
+    for _ in range(line - 1):
+        start = data.find(b"\n", start) + 1
+        if start == 0:
+            return None
+    end = data.find(b"\n", start)
+    text = data[start : end if end >= 0 else len(data)].decode("utf-8", errors="replace")
+    q = text.find('"')
+    if q < 0:
+        return None
+    k = text.count(sep, 0, q)
+    return header[k] if k < len(header) else None
 
 
 def _read_typed(data: bytes, kinds: dict, floats: dict, kw: dict) -> pd.DataFrame:
@@ -211,14 +255,14 @@ def _read_typed(data: bytes, kinds: dict, floats: dict, kw: dict) -> pd.DataFram
 def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
     """Float64 values of a column and a mask of non-blank cells that are not numbers."""
     if col.dtype == np.float64:
-        return col.to_numpy(), np.zeros(len(col), dtype=bool)
+        vals = col.to_numpy()
+        return vals, np.isinf(vals)  # `inf` text, or a number beyond the float range
     s = col.str.strip()
     if sep == ";":
         s = s.str.replace(",", ".", regex=False)
     vals = pd.to_numeric(s, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
-    bad = np.isnan(vals) & s.notna().to_numpy() & (s != "").to_numpy()
-    bad &= ~s.str.lower().isin(["nan"]).to_numpy()
-    return vals, bad
+    given = (s.notna() & (s != "")).to_numpy(dtype=bool)
+    return vals, ~np.isfinite(vals) & given
 
 
 def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
@@ -234,6 +278,7 @@ def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _csv_table(
+    data: bytes,
     frame: pd.DataFrame,
     header: list[str],
     cols: Columns,
@@ -256,13 +301,101 @@ def _csv_table(
     t.line0 = lines
     t.labels = names
     for lg, bad in notnum.items():
-        rows = np.flatnonzero(bad)
-        if rows.size:
-            t.raw[lg] = frame[f"c{cols[lg][0]}"].to_numpy(dtype=object)[
-                keep if keep is not None else slice(None)
-            ]
-            probs.add_rows(rows, lg, t, f"`{names[lg]}` must be a number")
+        if bad.any():
+            cells = frame[f"c{cols[lg][0]}"].to_numpy(dtype=object)
+            cells = cells[keep] if keep is not None else cells
+            _add_cells(probs, t, lg, np.flatnonzero(bad), cells, NOT_A_NUMBER.format(names[lg]))
+            t.refuse(lg, bad)
+    _check_short_rows(data, sep, len(header), frame, keep, t, probs)
     return t
+
+
+NOT_A_NUMBER = "`{}` must be a number (not text, `nan` or `inf`, and within ±1.8e308)"
+
+
+def _add_cells(
+    probs: ProblemList, t: Table, f: str, rows: np.ndarray, cells: np.ndarray, message: str
+) -> None:
+    """One problem per row in ``rows``, showing the cell text of column ``f``."""
+    room = max(0, MAX_PROBLEMS - len(probs.items))
+    for r in rows[:room].tolist():
+        line, column = t.locate(r, f)
+        probs.add(line, column, cells[r], message)
+    probs.more += max(0, len(rows) - room)
+
+
+def _check_short_rows(
+    data: bytes,
+    sep: str,
+    width: int,
+    frame: pd.DataFrame,
+    keep: np.ndarray | None,
+    t: Table,
+    probs: ProblemList,
+) -> None:
+    """Refuse rows with fewer fields than the header (the reader pads them with blanks).
+
+    A short row always lacks the last column, so fields are only counted (one pass over
+    the bytes) when some non-blank row has no value in the last column.
+    """
+    last = frame[f"c{width - 1}"]
+    empty = last.isna().to_numpy(dtype=bool).copy()
+    if not pd.api.types.is_numeric_dtype(last):
+        empty |= (last.astype(str).str.strip() == "").to_numpy(dtype=bool)
+    empty = empty[keep] if keep is not None else empty
+    if not empty.any():
+        return
+    counts = _field_counts(data, sep)
+    rows = np.flatnonzero(empty)
+    line_index = t.line0[rows] - 1  # 0-based line of each candidate row
+    known = line_index < len(counts)
+    rows, line_index = rows[known], line_index[known]
+    short = rows[counts[line_index] < width]
+    if short.size == 0:
+        return
+    room = max(0, MAX_PROBLEMS - len(probs.items))
+    for r in short[:room].tolist():
+        line = int(t.line0[r])
+        probs.add(
+            line,
+            None,
+            None,
+            f"line {line} has {counts[line - 1]} fields but the header has {width}: the row "
+            f"is cut short; give every column a value (an empty one keeps its `{sep}`)",
+        )
+    probs.more += max(0, short.size - room)
+    mask = np.zeros(t.n, dtype=bool)
+    mask[short] = True
+    t.refuse(ROW, mask)
+
+
+_COUNT_CHUNK = 1 << 20
+"""Bytes per step of :func:`_field_counts` (bounds its working memory)."""
+
+
+def _field_counts(data: bytes, sep: str) -> np.ndarray:
+    """Number of fields on each line of ``data`` (0-based line index).
+
+    Without quotes in the file the separators are counted with numpy, a chunk of bytes
+    at a time; with quotes (which may hold separators and line ends) the standard
+    ``csv`` reader counts them, one record per line as the pandas reader sees them.
+    """
+    if b'"' in data:
+        text = io.StringIO(data.decode("utf-8-sig"), newline="")
+        counts = []
+        for rec in csv.reader(text, delimiter=sep):
+            counts.append(len(rec))
+        return np.asarray(counts, dtype=np.int64)
+    b = np.frombuffer(data, dtype=np.uint8)
+    code = ord(sep)
+    at_newline, offset = [], 0
+    for start in range(0, len(b), _COUNT_CHUNK):
+        c = b[start : start + _COUNT_CHUNK]
+        seps = np.cumsum(c == code)
+        at_newline.append(offset + seps[c == 0x0A])
+        offset += int(seps[-1])
+    cum = np.concatenate([np.zeros(1, np.int64), *at_newline, [offset]])
+    return np.diff(cum) + 1
 
 
 def _blank_rows(n: int, text: dict, raw: dict, notnum: dict) -> np.ndarray:

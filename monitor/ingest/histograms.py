@@ -15,6 +15,7 @@ from monitor.domain.records import QUANTITIES, QUANTITY_PRESSURE_SPEED
 from monitor.ingest import units as U
 from monitor.ingest.assemble import assemble
 from monitor.ingest.common import (
+    HIST_TEXT,
     HOURS_TOLERANCE_FRACTION,
     HOURS_TOLERANCE_H,
     MAX_PROBLEMS,
@@ -54,13 +55,36 @@ def histograms(t: Table, probs: ProblemList) -> HistogramBatch | None:
     _check_band_edges(t, "pressure_low", "pressure_high", np.ones(t.n, bool), probs)
     _check_band_edges(t, "speed_low", "speed_high", is2d, probs)
     g = Groups.of(t, is2d)
-    _check_group_constants(t, g, probs)
+    skip = _tainted(t, g) if probs else np.zeros(len(g.starts), dtype=bool)
+    skip |= _check_group_constants(t, g, probs, skip)
     _check_overlaps(t, g, probs)
-    _check_periods(t, g, start, end, probs)
-    _check_period_overlaps(t, g, start, end, probs)
+    _check_periods(t, g, start, end, probs, skip)
+    _check_period_overlaps(t, g, start, end, probs, skip)
     if probs:
         return None
     return assemble(t, g, start, end)
+
+
+def _tainted(t: Table, g: Groups) -> np.ndarray:
+    """Per histogram: True if a check derived from its rows would only echo a value
+    already reported bad (so it is not reported as a separate problem).
+
+    That is a histogram holding a row with a bad value, or one that such a row would
+    have belonged to: a row whose unit, position, period or quantity is bad forms a
+    histogram of its own, and leaves the one that shares the other four key fields
+    short of its hours.
+    """
+    bad = t.bad_rows()
+    if not bad.any():
+        return np.zeros(len(g.starts), dtype=bool)
+    rows = bad.copy()
+    codes = [t.text[k][0] for k in HIST_TEXT]
+    for k in range(len(codes)):
+        key = group_ids(codes[:k] + codes[k + 1 :])
+        marked = np.zeros(int(key.max(initial=0)) + 1, dtype=bool)
+        marked[key[bad]] = True
+        rows |= marked[key]
+    return np.logical_or.reduceat(g.sort(rows), g.starts)
 
 
 def _check_quantity(t: Table, probs: ProblemList) -> np.ndarray:
@@ -76,24 +100,67 @@ def _check_quantity(t: Table, probs: ProblemList) -> np.ndarray:
         ~np.isin(quniq, QUANTITIES),
         lambda v: f"unknown quantity `{v}`: use `pressure` or `pressure_speed`",
     )
+    unknown = ~np.isin(quniq, QUANTITIES)
+    if unknown.any():
+        t.refuse("quantity", unknown[qcodes])
     return (quniq == QUANTITY_PRESSURE_SPEED)[qcodes]
 
 
-def _check_group_constants(t: Table, g: Groups, probs: ProblemList) -> None:
-    """Hour meter and mean speed must be the same on every row of one histogram."""
+def _check_group_constants(t: Table, g: Groups, probs: ProblemList, skip: np.ndarray) -> np.ndarray:
+    """Hour meter and mean speed must be the same on every row of one histogram; a row
+    that differs from the value most rows of its histogram give is reported.
+
+    Returns the histograms whose hour meter differs between rows (their hour sums and
+    hour-meter order are then not checked: they would only echo the same mistake).
+    """
+    uneven = np.zeros(len(g.starts), dtype=bool)
+    skip_rows = np.repeat(skip, g.ends - g.starts)
     for f in ("hour_meter_start", "hour_meter_end", "mean_speed"):
         v = g.sort(t.num[f])
         ref = np.repeat(v[g.starts], g.ends - g.starts)
-        differ = ~((v == ref) | (np.isnan(v) & np.isnan(ref)))
+        differ = ~_same(v, ref) & ~skip_rows
         if not differ.any():
             continue
+        ref = _group_mode(g, v)
+        differ = ~_same(v, ref) & ~skip_rows
+        if f != "mean_speed":
+            uneven |= np.logical_or.reduceat(differ, g.starts)
+        raw_ref = dict(zip(g.order[differ].tolist(), ref[differ].tolist(), strict=True))
         probs.add_rows(
             np.sort(g.order[differ]),
             f,
             t,
-            f"`{f}` differs from the first row of the same histogram (same unit, position, "
-            "period and quantity): give one value per histogram",
+            lambda r, f=f, raw_ref=raw_ref: (
+                f"`{t.labels.get(f, f)}` differs from the {fmt(raw_ref[r])} that the other rows "
+                "of the same histogram (same unit, position, period and quantity) give: give "
+                "one value per histogram"
+            ),
         )
+    return uneven
+
+
+def _same(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    return (a == b) | (np.isnan(a) & np.isnan(b))
+
+
+def _group_mode(g: Groups, v: np.ndarray) -> np.ndarray:
+    """Per sorted row: the value most rows of its histogram give (the first row's value
+    when no value is more common than it)."""
+    o = np.lexsort((v, g.gs))
+    gv, vv = g.gs[o], v[o]
+    new = np.r_[True, (gv[1:] != gv[:-1]) | ~_same(vv[1:], vv[:-1])]
+    run = np.cumsum(new) - 1
+    count = np.bincount(run)[run]  # size of each row's run of equal values
+    first_count = count[np.argsort(o)][g.starts]  # run size of each histogram's first row
+    best = np.zeros(len(g.starts), dtype=np.int64)
+    np.maximum.at(best, gv, count)
+    mode = v[g.starts].copy()
+    better = np.flatnonzero(best > first_count)
+    if better.size:
+        at = np.flatnonzero(count == best[gv])  # rows of a most common run
+        hist, first = np.unique(gv[at], return_index=True)
+        mode[hist] = np.where(np.isin(hist, better), vv[at[first]], mode[hist])
+    return np.repeat(mode, g.ends - g.starts)
 
 
 def _check_overlaps(t: Table, g: Groups, probs: ProblemList) -> None:
@@ -177,12 +244,18 @@ def _check_speeds(t: Table, is2d: np.ndarray, probs: ProblemList) -> None:
     for f in ("speed_low", "speed_high"):
         v = t.num[f]
         given = ~np.isnan(v)
-        rows = np.flatnonzero(is2d & ~given)
-        probs.add_rows(rows, f, t, "a `pressure_speed` row needs a speed band [rpm]")
-        rows = np.flatnonzero(~is2d & given)
+        need, extra = is2d & ~given, ~is2d & given
         probs.add_rows(
-            rows, f, t, "a `pressure` row has no speed band: leave it blank or use `pressure_speed`"
+            np.flatnonzero(need), f, t, "a `pressure_speed` row needs a speed band [rpm]"
         )
+        probs.add_rows(
+            np.flatnonzero(extra),
+            f,
+            t,
+            "a `pressure` row has no speed band: leave it blank or use `pressure_speed`",
+        )
+        if need.any() or extra.any():
+            t.refuse(f, need | extra)
         check_numbers(t, f, U.SPEED, probs, required=False)
     check_numbers(t, "mean_speed", U.SPEED, probs, required=False)
 
@@ -202,17 +275,20 @@ def _check_band_edges(
         )
 
     probs.add_rows(np.flatnonzero(bad), lo_f, t, m)
+    if bad.any():
+        t.refuse(lo_f, bad)
 
 
 def _check_periods(
-    t: Table, g: Groups, start: np.ndarray, end: np.ndarray, probs: ProblemList
+    t: Table, g: Groups, start: np.ndarray, end: np.ndarray, probs: ProblemList, skip: np.ndarray
 ) -> None:
-    """Per histogram: period order, hour meter order, hours vs hour-meter advance."""
+    """Per histogram: period order, hour meter order, hours vs hour-meter advance
+    (not for the histograms in ``skip``)."""
     f = g.first
     s, e = start[f], end[f]
     hs, he = t.num["hour_meter_start"][f], t.num["hour_meter_end"][f]
     nat = np.iinfo(np.int64).min
-    rows = f[(s != nat) & (e != nat) & (e <= s)]
+    rows = f[(s != nat) & (e != nat) & (e <= s) & ~skip]
     probs.add_rows(
         rows,
         "period_end",
@@ -220,7 +296,7 @@ def _check_periods(
         "period_end is not after period_start: a period must end after it starts",
     )
     with np.errstate(invalid="ignore"):
-        back = he < hs
+        back = (he < hs) & ~skip
     probs.add_rows(
         f[back],
         "hour_meter_end",
@@ -231,7 +307,7 @@ def _check_periods(
             "within a period (a replaced meter is recorded in the fleet registry)"
         ),
     )
-    _check_hours_sum(t, g, he - hs, back, probs)
+    _check_hours_sum(t, g, he - hs, back | skip, probs)
 
 
 def _check_hours_sum(
@@ -259,10 +335,11 @@ def _check_hours_sum(
 
 
 def _check_period_overlaps(
-    t: Table, g: Groups, start: np.ndarray, end: np.ndarray, probs: ProblemList
+    t: Table, g: Groups, start: np.ndarray, end: np.ndarray, probs: ProblemList, skip: np.ndarray
 ) -> None:
-    """Two histograms of one unit, position and quantity must not share time in one file."""
-    f = g.first
+    """Two histograms of one unit, position and quantity must not share time in one file
+    (histograms in ``skip`` are left out)."""
+    f = g.first[~skip]
     key = group_ids([t.text[k][0][f] for k in ("unit", "position", "quantity")])
     s, e = start[f], end[f]
     o = np.lexsort((s, key))

@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 
 import numpy as np
+import pandas as pd
 
 from monitor.domain.records import Reading
 from monitor.ingest import units as U
@@ -15,8 +16,10 @@ from monitor.ingest.common import (
     check_numbers,
     check_text,
     first_rows,
+    group_ids,
     parse_times,
     to_datetimes,
+    where_text,
 )
 
 _ISO4406_RE = re.compile(r"^(?:-|>28|\d{1,2})/(?:>28|\d{1,2})/(?:>28|\d{1,2})$")
@@ -35,9 +38,35 @@ def readings(t: Table, probs: ProblemList) -> list[Reading]:
             minimum = U.RANGES[kind][0]
             check_numbers(t, f, kind, probs, required=False, minimum=minimum)
     codes = _check_iso4406(t, probs) if "iso4406" in t.text else None
+    _check_repeats(t, taken, probs)
     if probs:
         return []
     return _build(t, taken, codes)
+
+
+def _check_repeats(t: Table, taken: np.ndarray, probs: ProblemList) -> None:
+    """The same component measured twice at the same moment: one of the rows is a copy
+    (the store keeps one reading per component and time). Rows with a bad unit, position
+    or time are left out (they are reported already)."""
+    rows = np.flatnonzero(~t.bad_rows("unit", "position", "taken_at"))
+    us = taken[rows] // 1000  # the store keeps whole microseconds
+    key = group_ids([t.text["unit"][0][rows], t.text["position"][0][rows], pd.factorize(us)[0]])
+    order = np.argsort(key, kind="stable")
+    again = np.r_[False, key[order][1:] == key[order][:-1]]
+    if not again.any():
+        return
+    first = np.maximum.accumulate(np.where(~again, np.arange(len(order)), 0))
+    other = dict(zip(rows[order[again]].tolist(), rows[order[first[again]]].tolist(), strict=True))
+    probs.add_rows(
+        np.sort(rows[order[again]]),
+        "taken_at",
+        t,
+        lambda r: (
+            f"the same unit, position and time as the reading at "
+            f"{where_text(t, other[r], 'taken_at')}: give each reading once (a component "
+            "is measured once at a given moment)"
+        ),
+    )
 
 
 def _check_iso4406(t: Table, probs: ProblemList) -> list[str | None]:

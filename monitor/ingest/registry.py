@@ -27,12 +27,23 @@ from monitor.domain.specs import (
     UnitSpec,
 )
 from monitor.domain.vocabulary import SERVICE_REASONS
+from monitor.ingest.limits import (
+    EARLIEST_TIME,
+    LATEST_TIME,
+    MAX_HOUR_METER_H,
+    MAX_TEXT_CHARS,
+    MAX_YAML_BYTES,
+    TIME_RANGE_TEXT,
+    shorten,
+)
 from monitor.ingest.units import PRESSURE_RANGE_BAR
+from monitor.ingest.yaml_text import load_yaml
 
 ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
 """ISO 3448 viscosity grades [mm2/s at 40 degC] (ISO 3448, from memory)."""
 
 # Field kinds: "text", "pos" (number > 0), "num0" (number >= 0), "num" (any number),
+# "hours" (0 <= h <= MAX_HOUR_METER_H),
 # "pressure" (0 < bar <= 1000), ("enum", choices), "time" (ISO 8601 with offset).
 # Each schema maps key -> (kind, required, default).
 OIL = {
@@ -90,8 +101,8 @@ SERVICE = {
     "position": ("text", False, None),
     "kind": (("enum", SERVICE_KINDS), True, None),
     "at": ("time", True, None),
-    "hour_meter": ("num0", True, None),
-    "new_hour_meter": ("num0", False, None),
+    "hour_meter": ("hours", True, None),
+    "new_hour_meter": ("hours", False, None),
     "note": ("text", False, None),
     "reason": (("enum", SERVICE_REASONS), False, None),
 }
@@ -102,6 +113,7 @@ _EXPECT = {
     "pos": "a number > 0",
     "num0": "a number >= 0",
     "num": "a number",
+    "hours": f"a number of hours >= 0 and <= {MAX_HOUR_METER_H:.0f}",
     "pressure": f"a pressure in bar, > 0 and <= {PRESSURE_RANGE_BAR[1]:g}",
     "time": 'an ISO 8601 timestamp with an offset, e.g. "2026-03-02T10:00:00Z"',
     "block": "a mapping of fields",
@@ -117,7 +129,7 @@ class _Check:
 
     def add(self, path: str, value: Any, message: str) -> None:
         line = self.lines.get(path)
-        shown = None if value is None else str(value)
+        shown = None if value is None else shorten(value)
         self.items.append(Problem(self.file, line, path, shown, message))
 
 
@@ -138,8 +150,22 @@ def load_registry(source: str | bytes | IO, name: str) -> tuple[Registry | None,
         is any problem.
     problems : list of Problem
         Every problem found, each with the field path and what is expected.
+
+    Notes
+    -----
+    The text is bounded before anything walks it: at most
+    :data:`~monitor.ingest.limits.MAX_YAML_BYTES`, nested at most
+    :data:`~monitor.ingest.limits.MAX_YAML_DEPTH` levels, and without aliases
+    (``*name``), whose expansion can make a few hundred bytes stand for billions of
+    entries.
     """
     text = source if isinstance(source, str | bytes) else source.read()
+    if len(text) > MAX_YAML_BYTES:
+        msg = (
+            f"registry is {len(text) / 2**20:.1f} MiB, larger than the "
+            f"{MAX_YAML_BYTES / 2**20:.0f} MiB limit: is this the right file?"
+        )
+        return None, [Problem(name, None, None, None, msg)]
     if isinstance(text, bytes):
         try:
             text = text.decode("utf-8-sig")
@@ -147,20 +173,26 @@ def load_registry(source: str | bytes | IO, name: str) -> tuple[Registry | None,
             return None, [
                 Problem(name, None, None, None, "registry is not UTF-8 text: save it as UTF-8")
             ]
-    try:
-        doc = yaml.safe_load(text)
-        lines = _line_map(yaml.compose(text, Loader=yaml.SafeLoader))
-    except yaml.YAMLError as e:
-        mark = getattr(e, "problem_mark", None)
-        line = mark.line + 1 if mark else None
-        return None, [Problem(name, line, None, None, f"invalid YAML: {e}")]
+    loaded = load_yaml(text, name)
+    if isinstance(loaded, Problem):
+        return None, [loaded]
+    doc, node = loaded
+    return _check_document(doc, _line_map(node), name)
+
+
+def _check_document(doc: Any, lines: dict[str, int], name: str) -> tuple:
+    """(registry or None, problems) of a loaded YAML document."""
     ck = _Check(name, lines)
     if not isinstance(doc, dict):
         ck.add("", None, "expected a mapping with the sections " + ", ".join(SECTIONS))
         return None, ck.items
     for k in doc:
         if k not in SECTIONS:
-            ck.add(str(k), None, f"unknown section `{k}`: known sections are {', '.join(SECTIONS)}")
+            ck.add(
+                shorten(k),
+                None,
+                f"unknown section `{shorten(k)}`: known sections are {', '.join(SECTIONS)}",
+            )
     sec = {s: _section(doc, s, ck) for s in SECTIONS}
     reg = Registry(
         oils=tuple(o for i, e in enumerate(sec["oils"]) if (o := _oil(e, f"oils[{i}]", ck))),
@@ -220,12 +252,7 @@ def _value(v: Any, kind: Any, path: str, ck: _Check) -> tuple[bool, Any]:
         ck.add(path, v, f"expected one of {', '.join(kind[1])}")
         return False, None
     if kind == "text":
-        if isinstance(v, str) and v.strip():
-            return True, v.strip()
-        if isinstance(v, int) and not isinstance(v, bool):
-            return True, str(v)
-        ck.add(path, v, "expected non-empty text (quote it if it looks like a number)")
-        return False, None
+        return _text(v, path, ck)
     if kind == "time":
         return _time(v, path, ck)
     if kind in ("block", "list"):
@@ -233,11 +260,12 @@ def _value(v: Any, kind: Any, path: str, ck: _Check) -> tuple[bool, Any]:
         if not ok:
             ck.add(path, None, f"expected {_EXPECT[kind]}")
         return ok, v
-    num = isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+    num = isinstance(v, int | float) and not isinstance(v, bool) and _finite(v)
     ok = num and (
         (kind == "num")
         or (kind == "pos" and v > 0)
         or (kind == "num0" and v >= 0)
+        or (kind == "hours" and 0 <= v <= MAX_HOUR_METER_H)
         or (kind == "pressure" and PRESSURE_RANGE_BAR[0] < v <= PRESSURE_RANGE_BAR[1])
     )
     if not ok:
@@ -246,15 +274,41 @@ def _value(v: Any, kind: Any, path: str, ck: _Check) -> tuple[bool, Any]:
     return True, float(v)
 
 
+def _finite(v: int | float) -> bool:
+    try:
+        return math.isfinite(v)
+    except OverflowError:  # an integer beyond any float
+        return False
+
+
+def _text(v: Any, path: str, ck: _Check) -> tuple[bool, str | None]:
+    """Non-empty text (a whole number is taken as written), at most as long as the store
+    holds for this field."""
+    if isinstance(v, int) and not isinstance(v, bool) and _finite(v):
+        v = str(v)
+    if not (isinstance(v, str) and v.strip()):
+        ck.add(path, v, "expected non-empty text (quote it if it looks like a number)")
+        return False, None
+    most = MAX_TEXT_CHARS.get(path.rsplit(".", 1)[-1])
+    if most is not None and len(v.strip()) > most:
+        ck.add(path, v, f"expected at most {most} characters")
+        return False, None
+    return True, v.strip()
+
+
 def _time(v: Any, path: str, ck: _Check) -> tuple[bool, datetime | None]:
+    raw = v
     if isinstance(v, str):
         try:
             v = datetime.fromisoformat(v.strip().replace("z", "Z"))
         except ValueError:
             v = None
     if isinstance(v, datetime) and v.tzinfo is not None:
+        if not EARLIEST_TIME <= v < LATEST_TIME:
+            ck.add(path, v.isoformat(), f"expected a time in the plausible range {TIME_RANGE_TEXT}")
+            return False, None
         return True, v.astimezone(UTC)
-    ck.add(path, v, f"expected {_EXPECT['time']}")
+    ck.add(path, raw, f"expected {_EXPECT['time']}")
     return False, None
 
 
@@ -268,7 +322,9 @@ def _fields(entry: Any, schema: dict, path: str, ck: _Check) -> dict | None:
     for k in entry:
         if k not in schema:
             ck.add(
-                f"{path}.{k}", None, f"unknown field `{k}`: known fields are {', '.join(schema)}"
+                f"{path}.{shorten(k)}",
+                None,
+                f"unknown field `{shorten(k)}`: known fields are {', '.join(schema)}",
             )
     for k, (kind, required, default) in schema.items():
         if entry.get(k) is None:
@@ -391,7 +447,9 @@ def _unique(names: list[str], what: str, path: str, ck: _Check) -> None:
     for i, n in enumerate(names):
         if n in seen:
             ck.add(
-                path.format(i), n, f"{what} `{n}` appears more than once: {what}s must be unique"
+                path.format(i),
+                n,
+                f"{what} `{shorten(n)}` appears more than once: {what}s must be unique",
             )
         seen.add(n)
 
@@ -406,14 +464,19 @@ def _check_references(reg: Registry, known: dict[str, set[str]], ck: _Check) -> 
         p = f"units[{i}]"
         for key, val in (("site", u.site), ("oil", u.oil)):
             if val not in known[key]:
-                ck.add(f"{p}.{key}", val, f"no {key} named `{val}`: known are {_names(known[key])}")
+                ck.add(
+                    f"{p}.{key}",
+                    val,
+                    f"no {key} named `{shorten(val)}`: known are {_names(known[key])}",
+                )
         _unique([c.position for c in u.components], "position", p + ".components[{}].position", ck)
         for j, c in enumerate(u.components):
             if c.model not in known["model"]:
                 ck.add(
                     f"{p}.components[{j}].model",
                     c.model,
-                    f"no component model named `{c.model}`: known are {_names(known['model'])}",
+                    f"no component model named `{shorten(c.model)}`: known are "
+                    f"{_names(known['model'])}",
                 )
         _check_service(u, p, ck)
 
@@ -448,12 +511,15 @@ def _check_service(u: UnitSpec, p: str, ck: _Check) -> None:
             ck.add(
                 f"{q}.position",
                 s.position,
-                f"unit {u.tag} has no component at `{s.position}`: known are {_names(positions)}",
+                f"unit {u.tag} has no component at `{shorten(s.position)}`: known are "
+                f"{_names(positions)}",
             )
 
 
-def _names(names: set[str]) -> str:
-    return ", ".join(sorted(names)) or "(none)"
+def _names(names: set[str], most: int = 12) -> str:
+    """The first ``most`` names, sorted (and how many there are in all)."""
+    shown = ", ".join(shorten(n) for n in sorted(names)[:most]) or "(none)"
+    return shown if len(names) <= most else f"{shown}, ... ({len(names)} in all)"
 
 
 # ---------------------------------------------------------------- writing

@@ -206,9 +206,10 @@ def convert(values: npt.ArrayLike, kind: str, unit: str) -> np.ndarray:
     arr = np.asarray(values, dtype=np.float64)
     if scale == 1.0 and offset == 0.0:
         return arr.copy()
-    out = arr * scale
-    if offset != 0.0:
-        out += offset
+    with np.errstate(over="ignore"):  # beyond the float range: inf, refused by the range check
+        out = arr * scale
+        if offset != 0.0:
+            out += offset
     return out
 
 

@@ -6,7 +6,9 @@ errors, opening a store), :mod:`~monitor.usecases.registry`,
 :mod:`~monitor.usecases.telemetry`, :mod:`~monitor.usecases.settings`,
 :mod:`~monitor.usecases.status`, :mod:`~monitor.usecases.events`,
 :mod:`~monitor.usecases.plan`, :mod:`~monitor.usecases.demo`,
-:mod:`~monitor.usecases.calibration`, :mod:`~monitor.usecases.traces`.
+:mod:`~monitor.usecases.calibration`, :mod:`~monitor.usecases.traces`,
+:mod:`~monitor.usecases.maintenance` (backup, restore, the URL as shown),
+:mod:`~monitor.usecases.access` (the dashboard password).
 
 The public names are gathered here and loaded on first use (PEP 562), so that a command
 that only prints its help does not import the database layer or pandas.
@@ -53,6 +55,14 @@ _WHERE = {
     "plain_value": "status",
     "rank_records": "status",
     "unit_report": "status",
+    "backup_store": "maintenance",
+    "display_url": "maintenance",
+    "restore_store": "maintenance",
+    "hash_password": "access",
+    "is_loopback": "access",
+    "read_password_file": "access",
+    "verify_password": "access",
+    "PASSWORD_HASH_ENV": "access",
     "TELEMETRY_SUFFIXES": "telemetry",
     "expand_paths": "telemetry",
     "ingest_bytes": "telemetry",

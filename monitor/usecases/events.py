@@ -5,6 +5,7 @@ from __future__ import annotations
 from datetime import UTC, datetime
 
 from monitor.domain.vocabulary import SERVICE_REASONS
+from monitor.ingest.limits import EARLIEST_TIME, LATEST_TIME, MAX_HOUR_METER_H, TIME_RANGE_TEXT
 from monitor.store import queries
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, locked_transaction
@@ -76,8 +77,15 @@ def _checked_event(tag, kind, at, hour_meter, position, new_hour_meter) -> dict:
         raise DomainError(f"kind {kind!r} is not known: use one of {', '.join(SERVICE_KINDS)}")
     if at.tzinfo is None:
         raise DomainError("the service time needs a UTC offset, e.g. 2026-11-20T08:00:00Z")
-    if not (hour_meter >= 0):
-        raise DomainError(f"hour meter must be a reading >= 0 h, got {hour_meter!r}")
+    if not EARLIEST_TIME <= at < LATEST_TIME:
+        raise DomainError(
+            f"the service time {at.isoformat()} is outside the plausible range {TIME_RANGE_TEXT}"
+        )
+    for name, h in (("hour meter", hour_meter), ("new hour meter", new_hour_meter)):
+        if h is not None and not (0 <= h <= MAX_HOUR_METER_H):
+            raise DomainError(
+                f"{name} must be a reading from 0 to {MAX_HOUR_METER_H:.0f} h, got {h!r}"
+            )
     if kind == "hour_meter_change":
         if position is not None:
             raise DomainError("an hour_meter_change is of the whole unit: leave out --position")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 
+from monitor.domain.records import Problem
 from monitor.ingest import registry
 from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, queries
@@ -15,7 +16,12 @@ REGISTRY_SUFFIXES = (".yaml", ".yml")
 
 def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.UpsertCounts:
     """Import a fleet registry file (idempotent upsert); raise DomainError if it is bad."""
-    text = data.decode("utf-8") if isinstance(data, bytes) else data
+    try:
+        text = data.decode("utf-8-sig") if isinstance(data, bytes) else data
+    except UnicodeDecodeError:
+        msg = "file is not UTF-8 text: save the registry as UTF-8 and import it again"
+        problem = Problem(name, None, None, None, msg)
+        raise DomainError(f"{name}: registry rejected", (problem,)) from None
     reg, problems = registry.load_registry(text, name)
     if problems or reg is None:
         raise DomainError(f"{name}: registry rejected, {len(problems)} problem(s)", problems)
