@@ -308,7 +308,7 @@ def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
     return vals, ~np.isfinite(vals) & given
 
 
-def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+def factorize_text(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     """Codes and uniques of text values; blanks around values and missing cells -> ""."""
     codes, uniq = pd.factorize(values)
     clean = np.array([str(u).strip() for u in uniq] + [""], dtype=object)
@@ -465,7 +465,7 @@ def _columns(frame: pd.DataFrame, cols: Columns, text_cols: tuple[str, ...], sep
     for lg, (i, u) in cols.items():
         col = frame[f"c{i}"]
         if lg in text_cols:
-            text[lg] = _factorize_stripped(col)
+            text[lg] = factorize_text(col)
             continue
         vals, notnum[lg] = _numbers(col, sep)
         kind = HIST_UNIT_COLUMNS.get(lg) or READ_UNIT_COLUMNS.get(lg)
