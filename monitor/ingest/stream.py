@@ -55,6 +55,7 @@ from monitor.ingest.csv_tables import (
 from monitor.ingest.histograms import histograms
 from monitor.ingest.json_text import too_large
 from monitor.ingest.limits import (
+    MAX_JSON_BYTES,
     MAX_OPEN_ROWS,
     MAX_STREAM_BYTES,
     MAX_STREAM_COMPONENTS,
@@ -298,12 +299,21 @@ def _header(block: _Block, block_bytes: int, size: int, probs: ProblemList) -> _
     """The layout of the file from its first block (a JSON file this large is refused)."""
     head = block.data[:65536].decode("utf-8", errors="ignore").lstrip("\ufeff \t\r\n")
     if head.startswith(("{", "[")):
-        probs.add(None, None, None, too_large(size))
+        if size > MAX_JSON_BYTES:
+            probs.add(None, None, None, too_large(size))
+        else:
+            probs.add(None, None, None, _JSON_WHOLE)
         return None
     layout = csv_layout(head, probs)
     if layout is None:
         return None
     return _Scan(layout, block.data.split(b"\n", 1)[0], block_bytes)
+
+
+_JSON_WHOLE = (
+    "a JSON file is not read in parts: it is read whole (up to the JSON size limit) by the "
+    "ordinary upload"
+)
 
 
 def _index_block(data: bytes, layout: Layout, offset: int) -> tuple | None:
