@@ -315,3 +315,10 @@ def test_readings_in_parts(tmp_path, store, tags):
     assert result.status == usecases.REJECTED
     assert result.problems == tuple(parse.parse_file(again, "again.csv").problems)
     assert snapshot(engine) == before
+
+
+def test_an_empty_file_is_refused(tmp_path, store):
+    engine = store()
+    result = usecases.ingest_large(engine, write(tmp_path, b""), block_bytes=BLOCK)
+    assert result.status == usecases.REJECTED
+    assert result.problems[0].message.startswith("file is empty")

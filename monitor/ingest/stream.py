@@ -279,6 +279,8 @@ def _first_pass(
                     probs.add(block.first_line, None, None, "cannot read the CSV")
                 return None
             parts.append(part)
+    if scan is None and not probs:
+        probs.add(None, None, None, _EMPTY)
     if scan is None or probs:
         return None
     out.content_sha256 = digest.hexdigest()
@@ -289,6 +291,7 @@ def _first_pass(
     return scan
 
 
+_EMPTY = "file is empty: expected a histogram CSV or a readings CSV"
 _TOO_LARGE = (
     f"the file is {{mib:.0f}} MiB, larger than the {MAX_STREAM_BYTES // 2**20} MiB limit for "
     "one CSV: split it into smaller files (for example one per month)"
