@@ -12,6 +12,7 @@ import csv
 import io
 import re
 import warnings
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -40,11 +41,33 @@ Columns = dict[str, tuple[int, str | None]]
 """Logical column -> (position in the header, unit spelling or None)."""
 
 
+@dataclass(frozen=True)
+class Layout:
+    """What the header line of a CSV says: the kind of file, the separator, the header
+    cells, each logical column's position and unit, and the text columns."""
+
+    kind: str
+    sep: str
+    header: list[str]
+    cols: Columns
+    text_cols: tuple[str, ...]
+
+
 def read_csv_table(data: bytes, head: str, probs: ProblemList) -> tuple[str, Table] | None:
     """The kind of CSV (:data:`HISTOGRAM` or :data:`READINGS`) and its column table.
 
     Returns None (with the reasons in ``probs``) if the header or the rows cannot be read.
     """
+    layout = csv_layout(head, probs)
+    if layout is None:
+        return None
+    t = read_csv_rows(data, layout, probs)
+    return None if t is None else (layout.kind, t)
+
+
+def csv_layout(head: str, probs: ProblemList) -> Layout | None:
+    """The :class:`Layout` of a CSV from the start of its text ``head``, or None (with
+    the reasons in ``probs``) if the header line cannot be used."""
     first = head.split("\n", 1)[0].rstrip("\r")
     sep = ";" if first.count(";") > first.count(",") else ","
     try:
@@ -58,10 +81,23 @@ def read_csv_table(data: bytes, head: str, probs: ProblemList) -> tuple[str, Tab
     cols = _resolve_header(header, spec, probs)
     if probs:
         return None
-    frame = _read_frame(data, sep, header, cols, spec[0], probs)
+    return Layout(spec[4], sep, header, cols, spec[0])
+
+
+def read_csv_rows(
+    data: bytes, layout: Layout, probs: ProblemList, line_offset: int = 0
+) -> Table | None:
+    """The column table of the rows of ``data`` (its first line, the header, is skipped),
+    or None (with the reason in ``probs``) if the rows cannot be read.
+
+    ``line_offset`` is added to every line number (in the table and in messages): a part
+    of a large file, preceded by the header line, starts at line ``2 + line_offset``.
+    """
+    lay = layout
+    frame = _read_frame(data, lay.sep, lay.header, lay.cols, lay.text_cols, probs, line_offset)
     if frame is None:
         return None
-    return spec[4], _csv_table(data, frame, header, cols, spec[0], sep, probs)
+    return _csv_table(data, frame, lay, probs, line_offset)
 
 
 def _spec(header: list[str], first: str, probs: ProblemList) -> tuple | None:
@@ -158,6 +194,7 @@ def _read_frame(
     cols: Columns,
     text_cols: tuple[str, ...],
     probs: ProblemList,
+    line_offset: int = 0,
 ) -> pd.DataFrame | None:
     """One ``read_csv`` of the file: numbers as float64 (fast path) or as text (fallback)."""
     names = [f"c{i}" for i in range(len(header))]
@@ -180,37 +217,43 @@ def _read_frame(
             return _read_typed(data, kinds, floats, kw)
     except pd.errors.ParserWarning:  # the first data row is longer than the header
         probs.add(
-            2,
+            2 + line_offset,
             None,
             None,
-            f"line 2 has more fields than the header has columns ({len(header)}): every "
-            f"row needs one value per column, separated by `{sep}`",
+            f"line {2 + line_offset} has more fields than the header has columns "
+            f"({len(header)}): every row needs one value per column, separated by `{sep}`",
         )
         return None
     except pd.errors.ParserError as e:
-        _ragged(e, data, sep, header, probs)
+        _ragged(e, data, sep, header, probs, line_offset)
         return None
 
 
 def _ragged(
-    e: pd.errors.ParserError, data: bytes, sep: str, header: list[str], probs: ProblemList
+    e: pd.errors.ParserError,
+    data: bytes,
+    sep: str,
+    header: list[str],
+    probs: ProblemList,
+    line_offset: int = 0,
 ) -> None:
     """The problem for a row with the wrong number of fields, an unbalanced quote, or any
     other read error, with its line (and column where it can be told)."""
     m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(e))
     if m:
+        line = int(m.group(2)) + line_offset
         probs.add(
-            int(m.group(2)),
+            line,
             None,
             None,
-            f"line {m.group(2)} has {m.group(3)} fields but the header has {m.group(1)}: "
+            f"line {line} has {m.group(3)} fields but the header has {m.group(1)}: "
             f"every row needs one value per column, separated by `{sep}`",
         )
         return
     m = re.search(r"EOF inside string starting at row (\d+)", str(e))
     if m:
-        line = int(m.group(1)) + 1
-        column = _quote_column(data, line, sep, header)
+        column = _quote_column(data, int(m.group(1)) + 1, sep, header)
+        line = int(m.group(1)) + 1 + line_offset
         probs.add(
             line,
             column,
@@ -265,7 +308,7 @@ def _numbers(col: pd.Series, sep: str) -> tuple[np.ndarray, np.ndarray]:
     return vals, ~np.isfinite(vals) & given
 
 
-def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+def factorize_text(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     """Codes and uniques of text values; blanks around values and missing cells -> ""."""
     codes, uniq = pd.factorize(values)
     clean = np.array([str(u).strip() for u in uniq] + [""], dtype=object)
@@ -278,16 +321,11 @@ def _factorize_stripped(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _csv_table(
-    data: bytes,
-    frame: pd.DataFrame,
-    header: list[str],
-    cols: Columns,
-    text_cols: tuple[str, ...],
-    sep: str,
-    probs: ProblemList,
+    data: bytes, frame: pd.DataFrame, lay: Layout, probs: ProblemList, line_offset: int
 ) -> Table:
     """Column arrays of a CSV frame in canonical units; blank lines dropped."""
-    text, num, raw, unit, notnum = _columns(frame, cols, text_cols, sep)
+    header, cols, sep = lay.header, lay.cols, lay.sep
+    text, num, raw, unit, notnum = _columns(frame, cols, lay.text_cols, sep)
     blank = _blank_rows(len(frame), text, raw, notnum)
     keep = np.flatnonzero(~blank) if blank.any() else None
     if keep is not None:
@@ -295,18 +333,27 @@ def _csv_table(
         num = {k: v[keep] for k, v in num.items()}
         raw = {k: v[keep] for k, v in raw.items()}
         notnum = {k: v[keep] for k, v in notnum.items()}
-    lines = (keep if keep is not None else np.arange(len(frame))) + 2
+    lines = (keep if keep is not None else np.arange(len(frame))) + 2 + line_offset
     names = {lg: header[i] for lg, (i, _) in cols.items()}
-    t = Table(len(lines), text, num, raw, unit, lambda r, f: (int(lines[r]), names.get(f, f)))
-    t.line0 = lines
-    t.labels = names
+    t = csv_rows_table(text, num, raw, unit, lines, names)
     for lg, bad in notnum.items():
         if bad.any():
             cells = frame[f"c{cols[lg][0]}"].to_numpy(dtype=object)
             cells = cells[keep] if keep is not None else cells
             _add_cells(probs, t, lg, np.flatnonzero(bad), cells, NOT_A_NUMBER.format(names[lg]))
             t.refuse(lg, bad)
-    _check_short_rows(data, sep, len(header), frame, keep, t, probs)
+    _check_short_rows(data, sep, len(header), frame, keep, t, probs, line_offset)
+    return t
+
+
+def csv_rows_table(
+    text: dict, num: dict, raw: dict, unit: dict, lines: np.ndarray, labels: dict[str, str]
+) -> Table:
+    """A :class:`Table` of CSV rows: each value located by its row's source line
+    ``lines`` and its column's name in the header ``labels``."""
+    t = Table(len(lines), text, num, raw, unit, lambda r, f: (int(lines[r]), labels.get(f, f)))
+    t.line0 = lines
+    t.labels = labels
     return t
 
 
@@ -332,6 +379,7 @@ def _check_short_rows(
     keep: np.ndarray | None,
     t: Table,
     probs: ProblemList,
+    line_offset: int = 0,
 ) -> None:
     """Refuse rows with fewer fields than the header (the reader pads them with blanks).
 
@@ -347,7 +395,7 @@ def _check_short_rows(
         return
     counts = _field_counts(data, sep)
     rows = np.flatnonzero(empty)
-    line_index = t.line0[rows] - 1  # 0-based line of each candidate row
+    line_index = t.line0[rows] - 1 - line_offset  # 0-based line of each row in ``data``
     known = line_index < len(counts)
     rows, line_index = rows[known], line_index[known]
     short = rows[counts[line_index] < width]
@@ -356,11 +404,12 @@ def _check_short_rows(
     room = max(0, MAX_PROBLEMS - len(probs.items))
     for r in short[:room].tolist():
         line = int(t.line0[r])
+        fields = counts[line - 1 - line_offset]
         probs.add(
             line,
             None,
             None,
-            f"line {line} has {counts[line - 1]} fields but the header has {width}: the row "
+            f"line {line} has {fields} fields but the header has {width}: the row "
             f"is cut short; give every column a value (an empty one keeps its `{sep}`)",
         )
     probs.more += max(0, short.size - room)
@@ -416,7 +465,7 @@ def _columns(frame: pd.DataFrame, cols: Columns, text_cols: tuple[str, ...], sep
     for lg, (i, u) in cols.items():
         col = frame[f"c{i}"]
         if lg in text_cols:
-            text[lg] = _factorize_stripped(col)
+            text[lg] = factorize_text(col)
             continue
         vals, notnum[lg] = _numbers(col, sep)
         kind = HIST_UNIT_COLUMNS.get(lg) or READ_UNIT_COLUMNS.get(lg)

@@ -34,8 +34,13 @@ from monitor.ingest.groups import Groups
 """Band columns kept in sorted order for the per-histogram checks and the records."""
 
 
-def histograms(t: Table, probs: ProblemList) -> HistogramBatch | None:
-    """Validate a band table and cut it into histograms (None if there is any problem)."""
+def histograms(t: Table, probs: ProblemList, period_overlaps: bool = True) -> HistogramBatch | None:
+    """Validate a band table and cut it into histograms (None if there is any problem).
+
+    ``period_overlaps=False`` leaves out the check that histograms of one unit, position
+    and quantity do not share time: a large file read in parts checks that over the
+    whole file instead (:mod:`monitor.ingest.stream`).
+    """
     if t.n == 0:
         probs.add(None, None, None, "the file has a header but no rows of data")
         return None
@@ -59,7 +64,8 @@ def histograms(t: Table, probs: ProblemList) -> HistogramBatch | None:
     skip |= _check_group_constants(t, g, probs, skip)
     _check_overlaps(t, g, probs)
     _check_periods(t, g, start, end, probs, skip)
-    _check_period_overlaps(t, g, start, end, probs, skip)
+    if period_overlaps:
+        _check_period_overlaps(t, g, start, end, probs, skip)
     if probs:
         return None
     return assemble(t, g, start, end)

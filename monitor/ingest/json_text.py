@@ -43,18 +43,20 @@ class BadNumber:
         return f"`{key}` is {what}: expected a finite number"
 
 
+def too_large(n_bytes: int) -> str:
+    """The message for a JSON file of ``n_bytes`` bytes, above :data:`MAX_JSON_BYTES`."""
+    return (
+        f"the JSON file is {n_bytes / 2**20:.1f} MiB, larger than the "
+        f"{MAX_JSON_BYTES / 2**20:.0f} MiB limit for JSON: split it into smaller files "
+        "(for example one per month) or export CSV, which has no such limit"
+    )
+
+
 def load_json(data: bytes, probs: ProblemList) -> object:
     """The parsed JSON of UTF-8 ``data`` (a leading byte-order mark is skipped), or
     :data:`FAILED` with the reason in ``probs``."""
     if len(data) > MAX_JSON_BYTES:
-        probs.add(
-            None,
-            None,
-            None,
-            f"the JSON file is {len(data) / 2**20:.1f} MiB, larger than the "
-            f"{MAX_JSON_BYTES / 2**20:.0f} MiB limit for JSON: split it into smaller files "
-            "(for example one per month) or export CSV, which has no such limit",
-        )
+        probs.add(None, None, None, too_large(len(data)))
         return FAILED
     if data.startswith(b"\xef\xbb\xbf"):
         data = data[3:]

@@ -92,3 +92,30 @@ def _bounded_str(value: object, limit: int) -> str:
     if isinstance(value, int) and value.bit_length() > 4 * limit:
         return f"<an integer of about {int(value.bit_length() * 0.30103)} digits>"
     return str(value)
+
+
+STREAM_THRESHOLD_BYTES = 64 * 1024 * 1024
+"""Files larger than this [bytes] (64 MiB) are read from disk in parts
+(:mod:`monitor.ingest.stream`) instead of whole; smaller ones, and every dashboard upload,
+are read whole (that takes about 0.2 GB + 4.3 times the file size)."""
+
+STREAM_BLOCK_BYTES = 16 * 1024 * 1024
+"""Size of one part of a large CSV [bytes] (16 MiB of whole lines, about 150 000 rows).
+Checking a part takes about 0.1 GB."""
+
+MAX_STREAM_BYTES = 2 * 1024**3
+"""Largest CSV file read in parts [bytes] (2 GiB). The per-file bookkeeping that spans
+the parts (where each unit and period ends, every histogram's period, every reading's
+time) grows with the file, at most about 0.03 GB per 100 MB, so this keeps a file of
+any content inside the 1.5 GB memory budget."""
+
+MAX_STREAM_LINE_BYTES = 16 * 1024 * 1024
+"""Longest line (or quoted value spanning lines) of a CSV read in parts [bytes]."""
+
+MAX_OPEN_ROWS = 1_000_000
+"""Rows a CSV read in parts may hold back, waiting for the rest of their unit and period
+(whose rows the file may spread out). The rows of one unit and period must lie within
+this many rows of each other; exports write them together."""
+
+MAX_STREAM_COMPONENTS = 200_000
+"""Distinct (unit, position, quantity) of a CSV read in parts: far above any fleet."""

@@ -102,8 +102,8 @@ def parse_file(stream: BinaryIO | bytes, name: str) -> ParsedFile:
         out = ParsedFile(name=name, content_sha256="")
         probs = ProblemList(name)
         try:
-            if _is_text(data, probs):
-                _parse_text(_line_ends(data), probs, out)
+            if is_text(data, probs):
+                _parse_text(line_ends(data), probs, out)
         except Exception:  # noqa: BLE001 - the file is refused, the developer gets the trace
             log.exception("unexpected error while parsing %s", name)
             probs.add(None, None, None, UNEXPECTED)
@@ -114,7 +114,7 @@ def parse_file(stream: BinaryIO | bytes, name: str) -> ParsedFile:
     return out
 
 
-def _line_ends(data: bytes) -> bytes:
+def line_ends(data: bytes) -> bytes:
     """``data`` with every carriage return that does not end a CRLF pair taken as a line
     end (CR-only files from old spreadsheet programs, or mixed line ends); line numbers
     in messages then count lines as a text editor shows them."""
@@ -143,8 +143,17 @@ def _parse_text(data: bytes, probs: ProblemList, out: ParsedFile) -> None:
         out.readings = readings(table, probs)
 
 
-def _is_text(data: bytes, probs: ProblemList) -> bool:
-    """True if ``data`` is non-blank UTF-8 text; else record why it is unusable."""
+def is_text(data: bytes, probs: ProblemList, first_line: int = 1) -> bool:
+    """True if ``data`` is non-blank UTF-8 text; else record why it is unusable.
+
+    ``first_line`` is the line number of the first line of ``data``: a part of a large
+    file (read in blocks of whole lines) after the first is checked for NUL bytes and
+    UTF-8 only, with its lines numbered as in the file.
+    """
+    if first_line > 1:
+        if not _no_nul(data, probs, first_line):
+            return False
+        return data.isascii() or _is_utf8(data, probs, first_line)
     if data.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in data[:65536]:
         probs.add(
             1,
@@ -154,11 +163,7 @@ def _is_text(data: bytes, probs: ProblemList) -> bool:
             "'Save as -> CSV UTF-8' in a spreadsheet program",
         )
         return False
-    if b"\x00" in data:
-        line = data.count(b"\n", 0, data.index(b"\x00")) + 1
-        probs.add(
-            line, None, None, f"file holds a NUL byte on line {line}: it is not a text export"
-        )
+    if not _no_nul(data, probs, first_line):
         return False
     if not data.isascii() and not _is_utf8(data, probs):
         return False
@@ -173,12 +178,21 @@ def _is_text(data: bytes, probs: ProblemList) -> bool:
     return True
 
 
-def _is_utf8(data: bytes, probs: ProblemList) -> bool:
+def _no_nul(data: bytes, probs: ProblemList, first_line: int) -> bool:
+    """True if ``data`` holds no NUL byte; else a problem naming its line."""
+    if b"\x00" not in data:
+        return True
+    line = data.count(b"\n", 0, data.index(b"\x00")) + first_line
+    probs.add(line, None, None, f"file holds a NUL byte on line {line}: it is not a text export")
+    return False
+
+
+def _is_utf8(data: bytes, probs: ProblemList, first_line: int = 1) -> bool:
     """True if ``data`` decodes as UTF-8; else a problem naming the first bad byte."""
     try:
         data.decode("utf-8")
     except UnicodeDecodeError as e:
-        line = data.count(b"\n", 0, e.start) + 1
+        line = data.count(b"\n", 0, e.start) + first_line
         bad = f"0x{data[e.start]:02x}"
         hint = ""
         if data[e.start] >= 0xA0:

@@ -25,8 +25,13 @@ from monitor.ingest.common import (
 _ISO4406_RE = re.compile(r"^(?:-|>28|\d{1,2})/(?:>28|\d{1,2})/(?:>28|\d{1,2})$")
 
 
-def readings(t: Table, probs: ProblemList) -> list[Reading]:
-    """Validate a readings table and build Reading records (one per service check)."""
+def readings(t: Table, probs: ProblemList, repeats: bool = True) -> list[Reading]:
+    """Validate a readings table and build Reading records (one per service check).
+
+    ``repeats=False`` leaves out the check that no component is measured twice at one
+    moment: a large file read in parts checks that over the whole file instead
+    (:mod:`monitor.ingest.stream`).
+    """
     if t.n == 0:
         probs.add(None, None, None, "the file has a header but no rows of data")
         return []
@@ -38,7 +43,8 @@ def readings(t: Table, probs: ProblemList) -> list[Reading]:
             minimum = U.RANGES[kind][0]
             check_numbers(t, f, kind, probs, required=False, minimum=minimum)
     codes = _check_iso4406(t, probs) if "iso4406" in t.text else None
-    _check_repeats(t, taken, probs)
+    if repeats:
+        _check_repeats(t, taken, probs)
     if probs:
         return []
     return _build(t, taken, codes)

@@ -517,11 +517,13 @@ def _change_between(changes: pd.DataFrame, unit_id, t0, t1) -> bool:  # noqa: AN
 
 
 def _check_readings(conn: Connection, plan: UploadPlan, name: str) -> None:
-    """A reading already stored for the same component and time must be identical."""
+    """A reading already stored for the same component and time must be identical (only
+    the stored readings within the file's time span are read)."""
     if not plan.readings:
         return
     t = db.reading
     comps = list({c for _, c in plan.readings})
+    times = [r.taken_at for r, _ in plan.readings]
     rows = conn.execute(
         select(
             t.c.component_id,
@@ -530,7 +532,11 @@ def _check_readings(conn: Connection, plan: UploadPlan, name: str) -> None:
             t.c.test_pressure_bar,
             t.c.oil_temp_c,
             t.c.iso4406,
-        ).where(t.c.component_id.in_(comps))
+        ).where(
+            t.c.component_id.in_(comps),
+            t.c.taken_at >= min(times),
+            t.c.taken_at <= max(times),
+        )
     ).all()
     stored = {
         (r[0], pd.Timestamp(r[1], tz="UTC") if r[1].tzinfo is None else pd.Timestamp(r[1])): r[2:]

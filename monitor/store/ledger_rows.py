@@ -228,9 +228,11 @@ def _insert_uploads(conn: Connection, file_id: int, plan) -> np.ndarray:  # noqa
     ]
     cols = ["file_id", "unit_id", "period_start", "period_end"]
     insert_columns(conn, t, [*cols, "hour_meter_start", "hour_meter_end"], values)
-    # ids rise in insert order (SQLite rowids; one session's sequence values in PostgreSQL)
-    ids = conn.execute(select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id)).scalars()
-    return np.array(ids.all(), dtype=np.int64)[plan.upload]
+    # ids rise in insert order (SQLite rowids; one session's sequence values in PostgreSQL);
+    # a file stored in parts has the uploads of its earlier parts before these
+    q = select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id.desc()).limit(first.size)
+    ids = np.array(conn.execute(q).scalars().all()[::-1], dtype=np.int64)
+    return ids[plan.upload]
 
 
 HISTOGRAM_COLUMNS = [

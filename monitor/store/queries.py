@@ -13,7 +13,7 @@ from collections.abc import Iterable
 from datetime import UTC, datetime
 
 import pandas as pd
-from sqlalchemy import Connection, and_, func, select
+from sqlalchemy import Connection, and_, func, select, update
 
 from monitor.domain.specs import ComponentModelSpec, OilSpec, Registry, ServiceSpec, UnitSpec
 from monitor.store import db
@@ -272,6 +272,15 @@ def insert_file(
             n_readings=n_readings,
         )
     ).inserted_primary_key[0]
+
+
+def set_file_counts(conn: Connection, file_id: int, n_histograms: int, n_readings: int) -> None:
+    """Set the histogram and reading counts of an upload-file row (a file stored in parts
+    knows them at its end)."""
+    f = db.upload_file
+    conn.execute(
+        update(f).where(f.c.id == file_id).values(n_histograms=n_histograms, n_readings=n_readings)
+    )
 
 
 def site_names(conn: Connection) -> list[str]:

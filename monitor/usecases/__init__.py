@@ -66,6 +66,7 @@ _WHERE = {
     "TELEMETRY_SUFFIXES": "telemetry",
     "expand_paths": "telemetry",
     "ingest_bytes": "telemetry",
+    "ingest_large": "telemetry",
     "ingest_paths": "telemetry",
     "recompute": "telemetry",
     "upload": "telemetry",

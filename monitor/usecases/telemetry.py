@@ -16,7 +16,9 @@ from pathlib import Path
 
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
-from monitor.ingest import parse, registry
+from monitor.ingest import parse, registry, stream
+from monitor.ingest.common import MAX_PROBLEMS
+from monitor.ingest.limits import STREAM_THRESHOLD_BYTES
 from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import checks, db, ledger_rows, queries
 from monitor.store.db import Engine
@@ -158,14 +160,122 @@ def _upload_registry(engine: Engine, data: bytes, name: str, dry_run: bool) -> F
 
 
 def upload_path(engine: Engine, path: str | Path, *, dry_run: bool = False) -> FileResult:
-    """:func:`upload` of a file on disk; a file that cannot be read is refused."""
+    """:func:`upload` of a file on disk; a file that cannot be read is refused.
+
+    A telemetry file larger than :data:`~monitor.ingest.limits.STREAM_THRESHOLD_BYTES`
+    is read in parts (:func:`ingest_large`), so memory stays bounded."""
     path = Path(path)
     try:
+        large = path.stat().st_size > STREAM_THRESHOLD_BYTES
+        if large and not path.name.lower().endswith(REGISTRY_SUFFIXES):
+            return ingest_large(engine, path, dry_run=dry_run)
         data = path.read_bytes()
     except OSError as err:
-        msg = f"file cannot be read ({err.strerror or type(err).__name__}): nothing was stored"
-        return _refused(path.name, msg)
+        return _refused(path.name, _unreadable(err))
     return upload(engine, data, path.name, dry_run=dry_run)
+
+
+def _unreadable(err: OSError) -> str:
+    return f"file cannot be read ({err.strerror or type(err).__name__}): nothing was stored"
+
+
+def ingest_large(
+    engine: Engine,
+    path: str | Path,
+    *,
+    dry_run: bool = False,
+    block_bytes: int = stream.STREAM_BLOCK_BYTES,
+) -> FileResult:
+    """Validate and store a telemetry CSV on disk read in parts of ``block_bytes`` bytes
+    (:mod:`monitor.ingest.stream`), with the outcome of :func:`ingest_bytes`.
+
+    The file is checked whole first (two reads); a file without problems is read a third
+    time and its parts are checked against the store and written one after the other in
+    ONE transaction under the store's write lock: a problem in any part, a unique-rule
+    violation or an error rolls all of it back, so the file is stored whole or not at all.
+    """
+    path = Path(path)
+    work = lambda: _ingest_large(engine, path, dry_run, block_bytes)  # noqa: E731
+    return _isolated(path.name, "telemetry", work)
+
+
+class _RolledBack(Exception):
+    """Raised inside a file's transaction to roll it back with the file's result."""
+
+    def __init__(self, result: FileResult) -> None:
+        super().__init__(result.status)
+        self.result = result
+
+
+def _ingest_large(engine: Engine, path: Path, dry_run: bool, block_bytes: int) -> FileResult:
+    name = path.name
+    try:
+        f = path.open("rb")
+    except OSError as err:
+        return _refused(name, _unreadable(err))
+    with f:
+        check = stream.check_stream(f, name, block_bytes)
+        if check.problems:
+            return FileResult(name, REJECTED, problems=tuple(check.problems))
+        conflict = None
+        for attempt in range(1, WRITE_ATTEMPTS + 1):
+            try:
+                if dry_run:
+                    with db.transaction(engine) as conn:
+                        return _store_parts(conn, f, check, dry_run=True)
+                with db.write_transaction(engine, units=check.units) as conn:
+                    return _store_parts(conn, f, check, dry_run=False)
+            except _RolledBack as done:
+                return done.result
+            except stream.StreamChanged as err:
+                log.warning("%s: %s", name, err)
+                return _refused(name, _CHANGED)
+            except db.WriteConflict as err:
+                log.warning("%s: write conflict on attempt %d: %s", name, attempt, err)
+                conflict = err
+            except db.StoreBusy as err:
+                log.warning("%s: %s", name, err)
+                return _refused(name, _BUSY.format(s=db.WRITE_LOCK_WAIT_S))
+    return _refused(name, _CONFLICT.format(detail=conflict))
+
+
+def _store_parts(conn, f, check: stream.StreamCheck, *, dry_run: bool) -> FileResult:  # noqa: ANN001
+    """The store checks and, unless ``dry_run``, the writes of a checked file, part by
+    part; raises :class:`_RolledBack` with the refusal when a part has problems."""
+    name = check.name
+    if queries.file_stored(conn, check.content_sha256):
+        return FileResult(name, DUPLICATE)
+    file_id = None if dry_run else queries.insert_file(conn, check.content_sha256, name, 0, 0)
+    problems: list[Problem] = []
+    n_hist = n_read = skipped = 0
+    for parsed in stream.stream_parts(f, check):
+        plan = checks.plan_upload(conn, parsed)
+        if plan.problems or problems:  # after a problem, parts are only checked
+            problems.extend(plan.problems)
+            if len(problems) >= MAX_PROBLEMS:
+                problems = [*problems[:MAX_PROBLEMS], Problem(name, None, None, None, _STOPPED)]
+                break
+            continue
+        n_hist, n_read = n_hist + plan.n_histograms, n_read + len(plan.readings)
+        skipped += plan.skipped
+        if not dry_run:
+            ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
+    if problems:
+        raise _RolledBack(FileResult(name, REJECTED, problems=tuple(problems)))
+    if not dry_run:
+        queries.set_file_counts(conn, file_id, n_hist, n_read)
+    status = VALID if dry_run else ACCEPTED
+    return FileResult(name, status, histograms=n_hist, readings=n_read, skipped=skipped)
+
+
+_STOPPED = (
+    f"checking stopped after {MAX_PROBLEMS} problems: fix these and check the file again to "
+    "see the rest"
+)
+_CHANGED = (
+    "the file changed while it was being read: nothing from it was stored and the store is "
+    "unchanged; ingest it again once it is complete"
+)
 
 
 def expand_paths(paths: Iterable[str | Path]) -> list[Path]:
