@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 
+from monitor.domain.vocabulary import plural
 from monitor.ingest import registry
 from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, queries
@@ -15,10 +16,11 @@ REGISTRY_SUFFIXES = (".yaml", ".yml")
 
 def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.UpsertCounts:
     """Import a fleet registry file (idempotent upsert); raise DomainError if it is bad."""
-    text = data.decode("utf-8") if isinstance(data, bytes) else data
+    text = _registry_text(data, name)
     reg, problems = registry.load_registry(text, name)
     if problems or reg is None:
-        raise DomainError(f"{name}: registry rejected, {len(problems)} problem(s)", problems)
+        what = plural(len(problems), "problem")
+        raise DomainError(f"{name}: registry rejected, {what}", problems)
     sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
     with locked_transaction(engine) as conn:
         counts = queries.upsert_registry(conn, reg)
@@ -26,6 +28,18 @@ def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.Ups
         if counts.created or counts.updated:
             ledger_rows.recompute(conn, batch_metrics)  # ratings or rebuild dates may have changed
     return counts
+
+
+def _registry_text(data: bytes | str, name: str) -> str:
+    if isinstance(data, str):
+        return data
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise DomainError(
+            f"{name} is not a text file (binary content, e.g. a spreadsheet): a fleet "
+            "registry is a YAML text file in UTF-8, e.g. demo_fleet/sample/registry.yaml"
+        ) from None
 
 
 def show_registry(engine: Engine) -> str | None:
