@@ -33,4 +33,5 @@ PAGES = [
 
 page = st.navigation(PAGES)
 ui.sidebar()
+ui.caution_banner()
 page.run()
