@@ -64,9 +64,12 @@ def status_rank(status: object) -> int:
     return STATUS_ORDER.index(key) if key in STATUS_ORDER else len(STATUS_ORDER)
 
 
-def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 380) -> go.Figure:
+def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 430) -> go.Figure:
+    """Common look: the title at the very top, the legend between title and plot (it may
+    wrap to several rows on a phone without reaching the axis titles), dark axis text."""
     fig.update_layout(
-        title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15}},
+        title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15},
+               "y": 0.995, "yref": "container", "yanchor": "top"},
         template="plotly_white",
         font={"family": FONT, "color": INK, "size": 13},
         height=height,
@@ -75,12 +78,18 @@ def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int =
                 "font": {"color": INK}},
         hoverlabel={"font": {"family": FONT}},
     )  # fmt: skip
-    fig.update_layout(margin={"l": 64, "r": 24, "t": 110, "b": 64})
+    fig.update_layout(margin={"l": 64, "r": 24, "t": 40 + 22 * _legend_rows(fig), "b": 64})
     axis = {"gridcolor": GRID, "zeroline": False, "tickfont": {"color": INK},
             "title_font": {"color": INK}, "linecolor": "#5B6670"}  # fmt: skip
     fig.update_xaxes(title_text=x_title, **axis)
     fig.update_yaxes(title_text=y_title, **axis)
     return fig
+
+
+def _legend_rows(fig: go.Figure, per_row: int = 2) -> int:
+    """Rows the legend may need at phone width (about two entries a row) [-]."""
+    shown = sum(1 for t in fig.data if t.showlegend is not False and t.name)
+    return max(1, -(-shown // per_row))
 
 
 def _empty(fig: go.Figure, message: str) -> go.Figure:
@@ -164,7 +173,7 @@ def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Fi
             marker={"color": status_colour(band), "pattern": {
                 "shape": STATUS_PATTERNS.get(band, ""), "fgcolor": "#FFFFFF", "size": 7,
                 "solidity": 0.25}},
-            text=[f"{c} {band}" if c else "" for c in counts], textposition="inside",
+            text=[str(c) if c else "" for c in counts], textposition="inside", textangle=0,
             insidetextanchor="middle", textfont={"color": "#FFFFFF"},
             hovertemplate="%{x}: %{y} " + band + "<br>%{customdata}<extra></extra>",
         )  # fmt: skip
@@ -555,4 +564,5 @@ def weibull_plot_figure(
             x=[reference, reference], y=list(y), mode="lines", name="rating: B10 = 1",
             line={"color": LIMIT, "dash": "dash", "width": 2}, hoverinfo="name",
         ))  # fmt: skip
+    fig.update_layout(margin={"t": 40 + 22 * _legend_rows(fig)})
     return fig

@@ -118,4 +118,7 @@ def late_style(assignments: pd.DataFrame) -> pd.io.formats.style.Styler:
         css = "background-color: #F6E3E7; font-weight: 600" if row["on_time"] == "LATE" else ""
         return [css] * len(row)
 
-    return shown.style.apply(shade, axis=1).format({"remaining_h": "{:,.0f}"}, na_rep="")
+    def hours(v: float) -> str:
+        return "limit reached" if v <= 0 else f"{v:,.0f}"
+
+    return shown.style.apply(shade, axis=1).format({"remaining_h": hours}, na_rep="")

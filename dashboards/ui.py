@@ -213,6 +213,9 @@ def table_frame(fleet: pd.DataFrame) -> pd.DataFrame:
         status_label(s, h) for s, h in zip(df["status"], df["hours_since_rebuild"], strict=True)
     ]
     df["remaining_h"] = df["remaining_h"].map(hours_text)
+    for col, pattern in _NUMBER_FORMATS.items():  # as text: a gap reads "–", never "None"
+        values = pd.to_numeric(df[col], errors="coerce")
+        df[col] = [pattern % v if pd.notna(v) else "–" for v in values]
     df["limiting"] = df["limiting"].fillna("–")
     df["flags"] = df["flags"].map(_flag_text)
     df["due_date"] = [_date_text(d) for d in df["due_date"]]
@@ -235,7 +238,7 @@ _NUMBER_FORMATS = {
     "case_drain_level_lpm": "%.2f",
     "case_drain_limit_lpm": "%.2f",
     "utilisation_h_per_day": "%.1f",
-    "data_age_days": "%.0f",
+    "data_age_days": "%.1f",
 }
 
 
@@ -243,7 +246,7 @@ def column_config() -> dict:
     """st.dataframe column settings for :func:`table_frame`."""
     cc = st.column_config
     config: dict = dict(TABLE_COLUMNS)
-    config |= {k: cc.NumberColumn(TABLE_COLUMNS[k], format=f) for k, f in _NUMBER_FORMATS.items()}
+    config |= {k: cc.TextColumn(TABLE_COLUMNS[k]) for k in _NUMBER_FORMATS}
     config["unit"] = cc.TextColumn(TABLE_COLUMNS["unit"], pinned=True)
     config["due_date"] = cc.TextColumn(
         TABLE_COLUMNS["due_date"], help="Empty: no recent operating hours, so no date"

@@ -35,13 +35,19 @@ with st.form("settings_form"):
     )
     b1, b2, b3 = st.columns(3)
     overdue = b1.number_input(
-        f"{STATUS_BANDS[0]} at or below [h]", value=float(limits["overdue_h"]), step=10.0
+        f"{STATUS_BANDS[0]} at or below [h]",
+        value=float(limits["overdue_h"]),
+        step=10.0,
+        format="%.0f",
     )
     due = b2.number_input(
-        f"{STATUS_BANDS[1]} at or below [h]", value=float(limits["due_h"]), step=50.0
+        f"{STATUS_BANDS[1]} at or below [h]", value=float(limits["due_h"]), step=50.0, format="%.0f"
     )
     plan = b3.number_input(
-        f"{STATUS_BANDS[2]} at or below [h]", value=float(limits["plan_h"]), step=100.0
+        f"{STATUS_BANDS[2]} at or below [h]",
+        value=float(limits["plan_h"]),
+        step=100.0,
+        format="%.0f",
     )
     d1, d2 = st.columns(2)
     stale = d1.number_input("Stale data after [days]", min_value=1, step=1,
