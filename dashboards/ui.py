@@ -433,9 +433,18 @@ def readable(frame: pd.DataFrame) -> pd.DataFrame:
     their gaps are left blank by the table)."""
     out = frame.copy()
     for col in out.columns:
-        if out[col].dtype == object:
-            out[col] = out[col].map(lambda v: "" if v is None or v is pd.NA else v)
+        if out[col].dtype == object or out[col].isna().all():
+            out[col] = out[col].astype(object).map(lambda v: "" if _missing(v) else v)
     return out
+
+
+def _missing(value: object) -> bool:
+    return (
+        value is None
+        or value is pd.NA
+        or value is pd.NaT
+        or (isinstance(value, float) and value != value)
+    )
 
 
 def labels(frame: pd.DataFrame) -> dict:

@@ -217,11 +217,11 @@ def test_every_page_at_desktop_and_phone_width(sized_page, server):
         assert caution.is_visible(), (name, path)  # on the page itself, not in the sidebar
         text = caution.inner_text()
         assert "lock out and tag out" in text and "qualified technicians" in text
+        if path == "fleet":
+            _check_attention_first(page, height)
         main = _main_text(page)
         found = INTERNALS.findall(main)
         assert not found, (name, path, found)
-        if path == "fleet":
-            _check_attention_first(page, height)
         assert page.evaluate("document.documentElement.scrollWidth") <= width + 1, (name, path)
         page.screenshot(path=str(SHOTS / f"{path}-{name}-fold.png"))  # what shows first
         _whole_page_shot(page, SHOTS / f"{path}-{name}.png", width, height)
@@ -249,6 +249,7 @@ def test_the_root_address_opens_the_fleet_page_under_its_address(page, server):
 
 def _check_attention_first(page, height: int) -> None:
     """The attention list starts above the fold, with its first drive, status and why."""
+    page.wait_for_selector(".ds-att tr", timeout=60_000)  # drawn after the heading
     box = page.locator(".ds-att")
     assert box.count() == 1
     first = box.locator("tr").nth(1)
