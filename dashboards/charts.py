@@ -1,9 +1,11 @@
 """Figure builders for the dashboard: pandas DataFrame in, plotly Figure out.
 
 Pure functions: no Streamlit, no store, no engineering. Every axis title carries its
-unit in brackets. Status is always shown with text as well as colour; the colours
-(:data:`STATUS_COLOURS`) step in lightness as well as hue (dark wine, ochre, mid
-blue, pale slate, grey) so they stay apart for the common colour-vision deficiencies.
+unit in brackets. Status is always shown with text and a fill pattern as well as colour
+(:data:`STATUS_PATTERNS`); every status colour (:data:`STATUS_COLOURS`) has a contrast
+ratio of at least 4.5:1 against white and carries white text at 4.5:1 (WCAG 2.1 AA,
+success criteria 1.4.3 and 1.4.11), and the hues differ (wine, brown, blue, slate, grey)
+so they stay apart for the common colour-vision deficiencies.
 """
 
 from __future__ import annotations
@@ -20,19 +22,28 @@ from plotly.subplots import make_subplots
 from monitor.domain import vocabulary as lifecycle
 
 FONT = "Source Sans Pro, Segoe UI, Helvetica, Arial, sans-serif"
-INK = "#2B3440"
+INK = "#1F2933"
 GRID = "#E3E7EB"
 LIMIT = "#8E1B3A"  # limit lines share the most urgent colour
 SETTING = "#4A4A4A"
 TREND = "#2F6690"
-BAND = "rgba(47, 102, 144, 0.16)"
+BAND = "rgba(47, 102, 144, 0.30)"
+RELIEF = "#5E4B8B"  # relief and heat bars: hues apart from every status colour
+CUTOFF = "#8C8C8C"
+HEAT = "#3B6E6E"
 
 STATUS_ORDER = (*lifecycle.STATUS_BANDS, lifecycle.NO_ESTIMATE)
 """Status band names, most urgent first (from monitor.lifecycle)."""
 
-_PALETTE = ("#8E1B3A", "#D98A1C", "#5B8DB8", "#A9B8C4", "#7A7A7A")
+_PALETTE = ("#8E1B3A", "#8A4B00", "#2A5D8F", "#4B5D6B", "#636363")
 STATUS_COLOURS = dict(zip(STATUS_ORDER, _PALETTE, strict=True))
-"""Colour of each status band (own palette; lightness falls with urgency)."""
+"""Colour of each status band (own palette; each at least 4.5:1 against white)."""
+
+STATUS_PATTERNS = dict(zip(STATUS_ORDER, ("x", "/", ".", "", "-"), strict=True))
+"""Fill pattern of each status band's bars, so that status never rests on colour alone."""
+
+ALREADY_DUE = "already due"
+"""Label of the due-weeks chart's first bar: no hours left, or the due date has passed."""
 
 
 def status_key(status: object) -> str:
@@ -53,19 +64,32 @@ def status_rank(status: object) -> int:
     return STATUS_ORDER.index(key) if key in STATUS_ORDER else len(STATUS_ORDER)
 
 
-def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 380) -> go.Figure:
+def _style(fig: go.Figure, title: str, x_title: str, y_title: str, height: int = 430) -> go.Figure:
+    """Common look: the title at the very top, the legend between title and plot (it may
+    wrap to several rows on a phone without reaching the axis titles), dark axis text."""
     fig.update_layout(
-        title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15}},
+        title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15},
+               "y": 0.995, "yref": "container", "yanchor": "top"},
         template="plotly_white",
         font={"family": FONT, "color": INK, "size": 13},
         height=height,
         margin={"l": 64, "r": 24, "t": 48, "b": 120},
-        legend={"orientation": "h", "yanchor": "top", "y": -0.3, "xanchor": "left", "x": 0.0},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.02, "xanchor": "left", "x": 0.0,
+                "font": {"color": INK}},
         hoverlabel={"font": {"family": FONT}},
-    )
-    fig.update_xaxes(title_text=x_title, gridcolor=GRID, zeroline=False)
-    fig.update_yaxes(title_text=y_title, gridcolor=GRID, zeroline=False)
+    )  # fmt: skip
+    fig.update_layout(margin={"l": 64, "r": 24, "t": 40 + 22 * _legend_rows(fig), "b": 64})
+    axis = {"gridcolor": GRID, "zeroline": False, "tickfont": {"color": INK},
+            "title_font": {"color": INK}, "linecolor": "#5B6670"}  # fmt: skip
+    fig.update_xaxes(title_text=x_title, **axis)
+    fig.update_yaxes(title_text=y_title, **axis)
     return fig
+
+
+def _legend_rows(fig: go.Figure, per_row: int = 2) -> int:
+    """Rows the legend may need at phone width (about two entries a row) [-]."""
+    shown = sum(1 for t in fig.data if t.showlegend is not False and t.name)
+    return max(1, -(-shown // per_row))
 
 
 def _empty(fig: go.Figure, message: str) -> go.Figure:
@@ -95,10 +119,12 @@ def _vline(x: float, y1: float, name: str, colour: str, dash: str) -> go.Scatter
 
 def week_buckets(due: Iterable[object], remaining_h: Iterable[float], as_of: date, weeks: int
                  ) -> list[int | None]:  # fmt: skip
-    """Week index of each due date counted from ``as_of`` (-1: due now or past due).
+    """Calendar week (Monday to Sunday) of each due date counted from the week of ``as_of``
+    (-1: already due: no hours left or the due date has passed).
 
     ``None`` for components with no due date or one after ``weeks`` weeks.
     """
+    monday = as_of - timedelta(days=as_of.weekday())
     out: list[int | None] = []
     for d, rem in zip(due, remaining_h, strict=True):
         if rem is not None and not pd.isna(rem) and float(rem) <= 0:
@@ -106,18 +132,28 @@ def week_buckets(due: Iterable[object], remaining_h: Iterable[float], as_of: dat
         elif d is None or pd.isna(d):
             out.append(None)
         else:
-            k = (pd.Timestamp(d).date() - as_of).days
-            out.append(-1 if k < 0 else (k // 7 if k // 7 < weeks else None))
+            day = pd.Timestamp(d).date()
+            k = (day - monday).days // 7
+            out.append(-1 if day < as_of else (k if k < weeks else None))
     return out
+
+
+def week_labels(as_of: date, weeks: int) -> list[str]:
+    """The due-weeks chart's bar labels: "already due", then each week's Monday with
+    its year (``"30 Nov 2026"``)."""
+    monday = as_of - timedelta(days=as_of.weekday())
+    days = [monday + timedelta(days=7 * k) for k in range(weeks)]
+    return [ALREADY_DUE] + [f"{d:%d %b %Y}" for d in days]
 
 
 def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Figure:
     """Components falling due per week over the next ``weeks`` weeks, stacked by status.
 
     ``fleet`` needs the columns unit, position, due_date, remaining_h and status. The
-    first bar collects everything already due (no hours left or due date passed).
+    first bar collects everything already due (no hours left or due date passed); each
+    status has its own colour, fill pattern and name in the hover text and legend.
     """
-    labels = ["due now"] + [(as_of + timedelta(days=7 * k)).strftime("%d %b") for k in range(weeks)]
+    labels = week_labels(as_of, weeks)
     fig = go.Figure()
     buckets = week_buckets(fleet["due_date"], fleet["remaining_h"], as_of, weeks)
     frame = fleet.assign(bucket=buckets).dropna(subset=["bucket"])
@@ -133,17 +169,20 @@ def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Fi
         names = part.groupby("bucket").apply(_unit_list, include_groups=False)
         names = names.reindex(range(-1, weeks), fill_value="")
         fig.add_bar(
-            x=labels, y=counts.to_numpy(), name=band, marker_color=status_colour(band),
-            customdata=names.to_numpy(), text=[str(c) if c else "" for c in counts],
-            textposition="inside",
-            hovertemplate="%{x}: %{y} component(s) " + band + "<br>%{customdata}<extra></extra>",
+            x=labels, y=counts.to_numpy(), name=band, customdata=names.to_numpy(),
+            marker={"color": status_colour(band), "pattern": {
+                "shape": STATUS_PATTERNS.get(band, ""), "fgcolor": "#FFFFFF", "size": 7,
+                "solidity": 0.25}},
+            text=[str(c) if c else "" for c in counts], textposition="inside", textangle=0,
+            insidetextanchor="middle", textfont={"color": "#FFFFFF"},
+            hovertemplate="%{x}: %{y} " + band + "<br>%{customdata}<extra></extra>",
         )  # fmt: skip
     fig.update_layout(barmode="stack", bargap=0.25, legend_traceorder="normal")
     fig.update_xaxes(categoryorder="array", categoryarray=labels)
     return _style(
         fig,
-        f"What falls due in the next {weeks} weeks",
-        "Week starting (date; first bar: already due)",
+        f"What falls due in the next {weeks} weeks (whole fleet)",
+        "Week starting Monday [date] (first bar: already due)",
         "Components falling due (count)",
     )
 
@@ -231,7 +270,7 @@ def life_figure(life: pd.DataFrame, projection: pd.DataFrame | None) -> go.Figur
         )  # fmt: skip
         xs += list(projection["hour_meter"])
     if xs:
-        fig.add_trace(_hline(min(xs), max(xs), 1.0, "end of rated life (1.0)", LIMIT, "dash"))
+        fig.add_trace(_hline(min(xs), max(xs), 1.0, "end of rated life (100 %)", LIMIT, "dash"))
     fig.update_yaxes(tickformat=".0%")
     return _style(
         fig,
@@ -289,8 +328,8 @@ def _trend_traces(fig: go.Figure, line: pd.DataFrame) -> None:
         fig.add_scatter(
             x=list(line["hour_meter"]) + list(line["hour_meter"][::-1]),
             y=list(line["high_lpm"]) + list(line["low_lpm"][::-1]),
-            fill="toself", fillcolor=BAND, line={"width": 0}, hoverinfo="skip",
-            name="95 % slope interval",
+            fill="toself", fillcolor=BAND, line={"width": 1, "color": TREND, "dash": "dot"},
+            hoverinfo="skip", name="95 % slope interval",
         )  # fmt: skip
     fig.add_scatter(
         x=line["hour_meter"], y=line["fitted_lpm"], mode="lines", name="Theil–Sen trend",
@@ -338,8 +377,9 @@ def case_drain_figure(
     )
 
 
-def relief_figure(monthly: pd.DataFrame) -> go.Figure:
-    """Hours at relief and at cut-off [h] and relief heat [kWh] per month.
+def relief_figure(monthly: pd.DataFrame, has_cutoff: bool = True) -> go.Figure:
+    """Hours at relief (and at cut-off, where the model has one) [h] and relief heat
+    [kWh] per month.
 
     ``monthly``: month (first day), relief_hours, cutoff_hours, relief_heat_kwh.
     """
@@ -348,11 +388,12 @@ def relief_figure(monthly: pd.DataFrame) -> go.Figure:
         _empty(fig, "No logged hours at relief or cut-off")
     months = pd.to_datetime(monthly["month"])
     fig.add_bar(x=months, y=monthly["relief_hours"], name="hours at relief",
-                marker_color=LIMIT, row=1, col=1)  # fmt: skip
-    fig.add_bar(x=months, y=monthly["cutoff_hours"], name="hours at cut-off",
-                marker_color="#7D98B3", row=1, col=1)  # fmt: skip
+                marker_color=RELIEF, row=1, col=1)  # fmt: skip
+    if has_cutoff:
+        fig.add_bar(x=months, y=monthly["cutoff_hours"], name="hours at cut-off",
+                    marker_color=CUTOFF, marker_pattern_shape="/", row=1, col=1)  # fmt: skip
     fig.add_bar(x=months, y=monthly["relief_heat_kwh"], name="heat dumped at relief",
-                marker_color="#D98A1C", row=2, col=1)  # fmt: skip
+                marker_color=HEAT, row=2, col=1)  # fmt: skip
     _style(fig, "Hours and heat at relief per month", "", "", height=420)
     fig.update_xaxes(title_text="Month [calendar month]", row=2, col=1)
     fig.update_yaxes(title_text="Time [h]", row=1, col=1)
@@ -428,12 +469,13 @@ def plan_timeline_figure(
 
 
 def _week_axis(fig: go.Figure, as_of: date, horizon_weeks: int) -> None:
-    """Date axis over the planning horizon, one tick per week start."""
-    start = pd.Timestamp(as_of)
+    """Date axis over the planning horizon, one tick per week start (Monday)."""
+    start = pd.Timestamp(as_of - timedelta(days=as_of.weekday()))
     end = start + pd.Timedelta(weeks=horizon_weeks)
     fig.update_xaxes(
         type="date", range=[start - pd.Timedelta(days=4), end],
-        tick0=start, dtick=7 * 86_400_000 * max(1, horizon_weeks // 12), tickformat="%d %b",
+        tick0=start, dtick=7 * 86_400_000 * max(1, horizon_weeks // 12),
+        tickformat="%d %b<br>%Y",
     )  # fmt: skip
 
 
@@ -453,7 +495,7 @@ def capacity_figure(capacity: pd.DataFrame, site: str) -> go.Figure:
     weeks = pd.to_datetime(rows["week_start"])
     cap = pd.to_numeric(rows["capacity"], errors="coerce").astype(float)
     full = rows["used"].to_numpy() >= cap.to_numpy()
-    colours = np.where(full, "#D98A1C", "#7D98B3")
+    colours = np.where(full, "#5E4B8B", "#7D98B3")
     fig = go.Figure()
     fig.add_bar(
         x=weeks, y=rows["used"], name="slots used", marker_color=colours,
@@ -531,4 +573,5 @@ def weibull_plot_figure(
             x=[reference, reference], y=list(y), mode="lines", name="rating: B10 = 1",
             line={"color": LIMIT, "dash": "dash", "width": 2}, hoverinfo="name",
         ))  # fmt: skip
+    fig.update_layout(margin={"t": 40 + 22 * _legend_rows(fig)})
     return fig

@@ -11,7 +11,7 @@ from dashboards.data import PlanOptions
 
 PLAN_LABELS = {
     "on_time": "On time?",
-    "week_start": "Week starting",
+    "week_start": "Week",
     "site": "Site",
     "unit": "Unit",
     "position": "Position",
@@ -20,7 +20,8 @@ PLAN_LABELS = {
     "remaining_h": st.column_config.NumberColumn("Remaining [h]", format="%,.0f"),
     "paired_with": "Done with",
     "late_days": "Late [days]",
-    "reason": "Why this week",
+    "reason": st.column_config.TextColumn("Why this week", width="large"),
+    "not_placed": "Why not placed",
 }
 """Headings of the plan tables."""
 
@@ -30,6 +31,13 @@ STOCK_COLUMNS = {
     "stock": "Exchange units in stock (blank: unlimited)",
     "turnaround": "Core back in stock after [days]",
 }
+
+
+def week_text(monday: object) -> str:
+    """A plan week as ISO week and Monday, e.g. "2026-W49 (Mon 2026-11-30)"."""
+    day = pd.Timestamp(monday).date()
+    year, week, _ = day.isocalendar()
+    return f"{year}-W{week:02d} (Mon {day.isoformat()})"
 
 
 def site_table(sites: list[str], opts: PlanOptions) -> pd.DataFrame:
@@ -99,7 +107,8 @@ def _count(value: object, what: str) -> int:
 def late_style(assignments: pd.DataFrame) -> pd.io.formats.style.Styler:
     """The assignments table with late rows shaded and marked in words."""
     shown = assignments.assign(
-        on_time=["LATE" if d > 0 else "on time" for d in assignments["late_days"]]
+        on_time=["LATE" if d > 0 else "on time" for d in assignments["late_days"]],
+        week_start=[week_text(d) for d in assignments["week_start"]],
     )
     cols = ["on_time", "week_start", "site", "unit", "position", "component_model", "due_date",
             "remaining_h", "paired_with", "late_days", "reason"]  # fmt: skip
@@ -109,4 +118,7 @@ def late_style(assignments: pd.DataFrame) -> pd.io.formats.style.Styler:
         css = "background-color: #F6E3E7; font-weight: 600" if row["on_time"] == "LATE" else ""
         return [css] * len(row)
 
-    return shown.style.apply(shade, axis=1).format({"remaining_h": "{:,.0f}"}, na_rep="")
+    def hours(v: float) -> str:
+        return "limit reached" if v <= 0 else f"{v:,.0f}"
+
+    return shown.style.apply(shade, axis=1).format({"remaining_h": hours}, na_rep="")

@@ -22,9 +22,18 @@ st.set_page_config(page_title="drivespan", page_icon=":material/build:", layout=
 if not gate.unlocked():  # an optional password, asked for before any page
     st.stop()
 
+FLEET = st.Page("app_pages/fleet.py", title="Fleet", icon=":material/list:", url_path="fleet")
+
+
+def _start() -> None:
+    """The app's root address opens the fleet page under its own address (/fleet), so that
+    every page, the fleet page too, has an address a bookmark can hold."""
+    st.switch_page(FLEET)
+
+
 PAGES = [
-    st.Page("app_pages/fleet.py", title="Fleet", icon=":material/list:", url_path="fleet",
-            default=True),
+    st.Page(_start, title="drivespan", url_path="start", default=True, visibility="hidden"),
+    FLEET,
     st.Page("app_pages/unit.py", title="Unit", icon=":material/search:", url_path="unit"),
     st.Page("app_pages/plan.py", title="Plan", icon=":material/event:", url_path="plan"),
     st.Page("app_pages/calibration.py", title="Calibration", icon=":material/query_stats:",
@@ -36,4 +45,5 @@ PAGES = [
 
 page = st.navigation(PAGES)
 ui.sidebar()
+ui.caution_banner()
 page.run()

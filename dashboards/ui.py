@@ -12,44 +12,44 @@ import pandas as pd
 import streamlit as st
 
 from dashboards import charts, data
-from monitor import usecases
-
-CAUTION = (
-    "**Estimates only.** Remaining hours and due dates are estimates from logged loads "
-    "and case-drain trends. The makers' service limits, local codes and qualified "
-    "technicians decide when a pump or motor is rebuilt.\n\n"
-    "**Stored energy.** Pressurised hydraulic systems are dangerous to work on: lower "
-    "or block all loads and relieve the pressure before opening any line."
+from monitor.domain.notices import ESTIMATE_NOTICE
+from monitor.domain.vocabulary import (
+    FLAG_WORDS,
+    LIMIT_REACHED,
+    NEW_LIFE,
+    NO_ESTIMATE,
+    STATUS_BANDS,
+    plural,
 )
+
+CAUTION = ESTIMATE_NOTICE
+"""The safety notice: one wording on every page, in the CLI and in every export."""
+
+CHIP_BACKGROUND = "#F5F7F9"
+MUTED_TEXT = "#3E4A56"
+ATTENTION_BANDS = STATUS_BANDS[:2]
+"""Status bands listed in the fleet page's attention list."""
 
 RELIABILITY_CHOICES = (90.0, 95.0, 96.0, 97.0, 98.0, 99.0, 99.5, 99.9, 99.95)
 """Offered planning reliabilities [%] (ISO 281:2007 gives a1 for 90-99.95 %)."""
 
-FLAG_WORDS = {
-    "stale": "stale data",
-    "case_drain_step": "case-drain step",
-    "heavy_relief": "heavy relief use",
-    "few_wear_readings": "few drain readings",
-    "wear_readings_off_reference": "drain readings off test conditions",
-}
-
 TABLE_COLUMNS = {
     "unit": "Unit",
-    "site": "Site",
-    "machine_type": "Machine type",
-    "position": "Position",
-    "component_model": "Model",
     "status": "Status",
-    "remaining_h": "Remaining [h]",
-    "limiting": "Limited by",
+    "flags": "Flags",
     "due_date": "Due date",
-    "consumed_fraction": "Life used",
+    "remaining_h": "Remaining [h]",
+    "position": "Loop",
+    "site": "Site",
+    "limiting": "Limited by",
+    "consumed_fraction": "Life used [%]",
+    "machine_type": "Machine type",
+    "component_model": "Model",
     "case_drain_level_lpm": "Case drain [L/min]",
     "case_drain_limit_lpm": "Drain limit [L/min]",
-    "drain_to_limit": "Drain vs limit",
+    "drain_to_limit": "Drain vs limit [%]",
     "utilisation_h_per_day": "Use [h/day]",
     "data_age_days": "Data age [days]",
-    "flags": "Flags",
 }
 """Columns of the fleet table as shown (source column -> heading with unit)."""
 
@@ -80,10 +80,14 @@ def sidebar() -> Context:
             help="Chance that a bearing survives the estimated hours (ISO 281 factor a1). "
             "Higher reliability gives fewer hours.",
         )  # fmt: skip
-        st.caption(f"Store: `{_safe_url(url)}`")
         st.divider()
         st.warning(CAUTION, icon=":material/warning:")
     return Context(url, as_of, float(reliability))
+
+
+def caution_banner() -> None:
+    """The safety notice at the top of every page (visible without opening the sidebar)."""
+    st.caption(f":material/warning: {CAUTION}")
 
 
 def context() -> Context:
@@ -94,11 +98,6 @@ def context() -> Context:
     )
 
 
-def _safe_url(url: str | None) -> str:
-    """The URL with any password masked."""
-    return usecases.display_url(url)
-
-
 def status_chips(fleet: pd.DataFrame) -> str:
     """HTML row of status counts: a coloured marker, the band name and the count."""
     counts = charts.status_count_frame(fleet)
@@ -107,24 +106,100 @@ def status_chips(fleet: pd.DataFrame) -> str:
         colour = charts.status_colour(band)
         chips.append(
             f'<div class="ds-chip" style="border-left:6px solid {colour}">'
-            f'<span class="ds-n">{int(n)}</span><span class="ds-band">{html.escape(band)}</span>'
-            "</div>"
+            f'<span class="ds-n" style="color:{colour}">{int(n)}</span>'
+            f'<span class="ds-band">{html.escape(status_label(band))}</span></div>'
         )
+    stale = _stale_units(fleet)
+    chips.append(
+        '<div class="ds-chip" style="border-left:6px dotted #3E4A56">'
+        f'<span class="ds-n">{stale}</span><span class="ds-band">'
+        f"{'unit' if stale == 1 else 'units'} with stale data</span></div>"
+    )
     return (
-        "<style>.ds-row{display:flex;gap:12px;flex-wrap:wrap;margin:4px 0 8px}"
-        ".ds-chip{background:#F5F7F9;padding:8px 16px 8px 12px;border-radius:4px;"
-        "min-width:110px}.ds-n{font-size:1.6rem;font-weight:600;margin-right:8px}"
-        ".ds-band{color:#4A5561}</style>"
-        f'<div class="ds-row">{"".join(chips)}</div>'
+        "<style>.ds-row{display:flex;gap:10px;flex-wrap:wrap;margin:4px 0 8px}"
+        f".ds-chip{{background:{CHIP_BACKGROUND};padding:6px 14px 6px 10px;border-radius:4px;"
+        "min-width:100px}.ds-n{font-size:1.5rem;font-weight:600;margin-right:8px}"
+        f".ds-band{{color:{MUTED_TEXT}}}</style>"
+        f'<div class="ds-row" data-testid="ds-counts">{"".join(chips)}</div>'
     )
 
 
-def status_label(status: object) -> str:
-    """Status text with a marker whose shape differs by urgency (readable without colour)."""
+def _stale_units(fleet: pd.DataFrame) -> int:
+    stale = fleet["flags"].map(lambda f: isinstance(f, (list, tuple)) and "stale" in f)
+    return int(fleet.loc[stale.astype(bool), "unit"].nunique())
+
+
+def status_label(status: object, hours_since_rebuild: object = None) -> str:
+    """Status text with a marker whose shape differs by urgency (readable without colour);
+    a drive with no hours since its rebuild reads "new life, no estimate yet"."""
     key = charts.status_key(status)
     marks = ("■■■", "■■□", "■□□", "□□□")
     rank = charts.status_rank(key)
+    if key == NO_ESTIMATE and hours_since_rebuild is not None and not hours_since_rebuild:
+        key = NEW_LIFE
     return f"{marks[rank] if rank < len(marks) else '–––'} {key}"
+
+
+def hours_text(value: object) -> str:
+    """Whole hours with thousands separators; used up reads "limit reached"; none "–"."""
+    if value is None or pd.isna(value):
+        return "–"
+    return LIMIT_REACHED if float(value) <= 0 else f"{float(value):,.0f}"
+
+
+def _reason(row: pd.Series) -> str:
+    """One line on why a drive needs action."""
+    what = "case-drain wear" if row["limiting"] == "wear" else "bearing fatigue"
+    left = hours_text(row["remaining_h"])
+    left = left if left == LIMIT_REACHED else f"{left} h left"
+    use = row["utilisation_h_per_day"]
+    rate = f" at {use:.1f} h/day" if use is not None and pd.notna(use) else ""
+    return f"{what}: {left}{rate}"
+
+
+def attention_frame(fleet: pd.DataFrame) -> pd.DataFrame:
+    """The drives that need action (act now, due soon), most urgent first: unit, loop,
+    status, a one-line reason and the due date."""
+    need = fleet[fleet["status"].map(charts.status_key).isin(ATTENTION_BANDS)]
+    return pd.DataFrame(
+        {
+            "Unit": need["unit"].astype(str),
+            "Loop": need["position"].astype(str),
+            "Status": [status_label(s) for s in need["status"]],
+            "Flags": need["flags"].map(_flag_text),
+            "Why": [_reason(r) for _, r in need.iterrows()],
+            "Due date": [_date_text(d) or "–" for d in need["due_date"]],
+        }
+    )
+
+
+def attention_html(fleet: pd.DataFrame) -> str:
+    """The attention list as a compact HTML table (reads on a phone, no sideways scroll)."""
+    frame = attention_frame(fleet)
+    stale = _stale_units(fleet)
+    head = (
+        f"<b>Needs action: {plural(len(frame), 'drive')}</b> ({' or '.join(ATTENTION_BANDS)}, "
+        f"whole fleet) · {plural(stale, 'unit')} with stale data"
+    )
+    if frame.empty:
+        return f'<div class="ds-att">{head}. Nothing needs action.</div>'
+    rows = []
+    for r in frame.itertuples(index=False):
+        colour = charts.status_colour(r.Status.split(" ", 1)[1])
+        flags = f" · {html.escape(r.Flags)}" if r.Flags else ""
+        rows.append(
+            f"<tr><td><b>{html.escape(r.Unit)}</b> {html.escape(r.Loop)}</td>"
+            f'<td style="color:{colour};font-weight:600">{html.escape(r.Status)}</td>'
+            f"<td>{html.escape(r.Why)}{flags}</td><td>{html.escape(r[5])}</td></tr>"
+        )
+    return (
+        "<style>.ds-att table{border-collapse:collapse;width:100%;font-size:0.92rem}"
+        ".ds-att td,.ds-att th{padding:3px 8px;border-bottom:1px solid #E3E7EB;"
+        "text-align:left;vertical-align:top}.ds-att th{color:#3E4A56}</style>"
+        f'<div class="ds-att" data-testid="ds-attention"><p>{head}</p><table>'
+        "<tr><th>Unit, loop</th><th>Status</th><th>Why</th><th>Due</th></tr>"
+        f"{''.join(rows)}</table></div>"
+    )
 
 
 def table_frame(fleet: pd.DataFrame) -> pd.DataFrame:
@@ -132,9 +207,16 @@ def table_frame(fleet: pd.DataFrame) -> pd.DataFrame:
     df = fleet.copy()
     limit = pd.to_numeric(df["case_drain_limit_lpm"], errors="coerce")
     level = pd.to_numeric(df["case_drain_level_lpm"], errors="coerce")
-    df["drain_to_limit"] = (level / limit).clip(lower=0, upper=1)
-    df["status"] = df["status"].map(status_label)
-    df["limiting"] = df["limiting"].fillna("—")
+    df["drain_to_limit"] = (100 * level / limit).clip(lower=0, upper=100)
+    df["consumed_fraction"] = 100 * pd.to_numeric(df["consumed_fraction"], errors="coerce")
+    df["status"] = [
+        status_label(s, h) for s, h in zip(df["status"], df["hours_since_rebuild"], strict=True)
+    ]
+    df["remaining_h"] = df["remaining_h"].map(hours_text)
+    for col, pattern in _NUMBER_FORMATS.items():  # as text: a gap reads "–", never "None"
+        values = pd.to_numeric(df[col], errors="coerce")
+        df[col] = [pattern % v if pd.notna(v) else "–" for v in values]
+    df["limiting"] = df["limiting"].fillna("–")
     df["flags"] = df["flags"].map(_flag_text)
     df["due_date"] = [_date_text(d) for d in df["due_date"]]
     return df[list(TABLE_COLUMNS)]
@@ -153,11 +235,10 @@ def _flag_text(flags: object) -> str:
 
 
 _NUMBER_FORMATS = {
-    "remaining_h": "%,.0f",
     "case_drain_level_lpm": "%.2f",
     "case_drain_limit_lpm": "%.2f",
     "utilisation_h_per_day": "%.1f",
-    "data_age_days": "%.0f",
+    "data_age_days": "%.1f",
 }
 
 
@@ -165,21 +246,37 @@ def column_config() -> dict:
     """st.dataframe column settings for :func:`table_frame`."""
     cc = st.column_config
     config: dict = dict(TABLE_COLUMNS)
-    config |= {k: cc.NumberColumn(TABLE_COLUMNS[k], format=f) for k, f in _NUMBER_FORMATS.items()}
+    config |= {k: cc.TextColumn(TABLE_COLUMNS[k]) for k in _NUMBER_FORMATS}
     config["unit"] = cc.TextColumn(TABLE_COLUMNS["unit"], pinned=True)
     config["due_date"] = cc.TextColumn(
         TABLE_COLUMNS["due_date"], help="Empty: no recent operating hours, so no date"
     )
+    config["status"] = cc.TextColumn(TABLE_COLUMNS["status"], pinned=True)
     config["consumed_fraction"] = cc.ProgressColumn(
-        TABLE_COLUMNS["consumed_fraction"], min_value=0.0, max_value=1.0, format="percent",
+        TABLE_COLUMNS["consumed_fraction"], min_value=0.0, max_value=100.0, format="%.1f %%",
         help="Share of the rated bearing life (L10 at the planning reliability) used since "
         "the last rebuild",
     )  # fmt: skip
     config["drain_to_limit"] = cc.ProgressColumn(
-        TABLE_COLUMNS["drain_to_limit"], min_value=0.0, max_value=1.0, format="percent",
+        TABLE_COLUMNS["drain_to_limit"], min_value=0.0, max_value=100.0, format="%.1f %%",
         help="Fitted case-drain level now as a share of the model's rebuild limit",
     )  # fmt: skip
     return config
+
+
+SETTING_WORDS = {
+    "overdue_h": f"'{STATUS_BANDS[0]}' limit",
+    "due_h": f"'{STATUS_BANDS[1]}' limit",
+    "plan_h": f"'{STATUS_BANDS[2]}' limit",
+}
+"""The stored names of the status limits and the words the settings page shows."""
+
+
+def setting_words(message: str) -> str:
+    """A settings message with the status-band words instead of internal names."""
+    for name, words in SETTING_WORDS.items():
+        message = message.replace(name, words)
+    return message
 
 
 def show_error(message: str, problems: tuple = ()) -> None:
@@ -335,7 +432,27 @@ _LABELS = {
     "peak_bar": "Peak [bar]",
     "peak_s": "Peak at [s]",
     "rise_rate_bar_per_s": "Rise rate [bar/s]",
+    "reason": "Reason",
 }
+
+
+def readable(frame: pd.DataFrame) -> pd.DataFrame:
+    """A detail table for showing: text gaps empty instead of "None" (numbers stay numbers,
+    their gaps are left blank by the table)."""
+    out = frame.copy()
+    for col in out.columns:
+        if out[col].dtype == object or out[col].isna().all():
+            out[col] = out[col].astype(object).map(lambda v: "" if _missing(v) else v)
+    return out
+
+
+def _missing(value: object) -> bool:
+    return (
+        value is None
+        or value is pd.NA
+        or value is pd.NaT
+        or (isinstance(value, float) and value != value)
+    )
 
 
 def labels(frame: pd.DataFrame) -> dict:
@@ -346,6 +463,8 @@ def labels(frame: pd.DataFrame) -> dict:
         label = _LABELS.get(col, col)
         if pd.api.types.is_datetime64_any_dtype(frame[col]):
             out[col] = cc.DatetimeColumn(label, format="YYYY-MM-DD HH:mm")
+        elif col.startswith("hour_meter") or col.startswith("new_hour_meter"):
+            out[col] = cc.NumberColumn(label, format="%,.1f")
         else:
             out[col] = label
     return out

@@ -32,7 +32,7 @@ from openpyxl import Workbook
 from openpyxl.cell import WriteOnlyCell
 from openpyxl.styles import Font
 
-from monitor.planning import ESTIMATE_NOTICE, Plan, plan_summary
+from monitor.planning import ESTIMATE_NOTICE, Plan, not_placed_frame, plan_summary
 
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 """Leading characters that make a spreadsheet treat a text cell as a formula."""
@@ -188,9 +188,24 @@ def frame_to_xlsx_bytes(df: pd.DataFrame, sheet_name: str = "data") -> bytes:
     return frames_to_xlsx_bytes({sheet_name: df})
 
 
+def plan_rows(plan: Plan) -> pd.DataFrame:
+    """One row per drive the plan deals with: the planned rebuilds (``state`` planned,
+    with the ISO week ``iso_week`` of the planned week), then every drive that could not
+    be placed (``state`` says why, ``reason`` explains)."""
+    s, a = plan.settings, plan.assignments
+    planned = a.assign(
+        state="planned", iso_week=[s.week_label(w).split(" ", 1)[0] for w in a["week"]]
+    )
+    rest = not_placed_frame(plan).rename(columns={"not_placed": "state"})
+    cols = ["state", *planned.columns.drop("state")]
+    if rest.empty:
+        return planned[cols]
+    return pd.concat([planned[cols], rest.reindex(columns=cols)], ignore_index=True)
+
+
 def plan_to_csv_bytes(plan: Plan) -> bytes:
-    """The plan's assignments (one row per rebuild) as CSV bytes."""
-    return frame_to_csv_bytes(plan.assignments)
+    """:func:`plan_rows` as CSV bytes: the rebuilds, then the drives not placed."""
+    return frame_to_csv_bytes(plan_rows(plan))
 
 
 def _settings_frame(plan: Plan) -> pd.DataFrame:
@@ -269,7 +284,7 @@ def _member_line(row: pd.Series) -> str:
 
 def _event_lines(group: pd.DataFrame, plan: Plan, weekday: int | None, stamp: str) -> list[str]:
     first = group.iloc[0]
-    day = _event_day(first.week_start, weekday)
+    day = _event_day(max(first.week_start, plan.settings.as_of), weekday)
     positions = " + ".join(group.position)
     late = int(group.late_days.max())
     summary = f"Rebuild downtime {first.unit}: {positions}" + (f" (late {late} d)" if late else "")
@@ -277,8 +292,8 @@ def _event_lines(group: pd.DataFrame, plan: Plan, weekday: int | None, stamp: st
     uid = f"{hashlib.sha256(key.encode('utf-8')).hexdigest()[:32]}@drivespan"
     description = "\n".join(
         [
-            f"Unit {first.unit} at {first.site or 'no site'}: planned week {first.week} "
-            f"(starts {first.week_start.isoformat()}).",
+            f"Unit {first.unit} at {first.site or 'no site'}: planned in week "
+            f"{plan.settings.week_label(first.week)}.",
             *(_member_line(row) for _, row in group.iterrows()),
             *(f"Why: {r}" for r in group.reason),
             ESTIMATE_NOTICE,
@@ -287,6 +302,32 @@ def _event_lines(group: pd.DataFrame, plan: Plan, weekday: int | None, stamp: st
     return [
         "BEGIN:VEVENT",
         f"UID:{uid}",
+        f"DTSTAMP:{stamp}",
+        f"DTSTART;VALUE=DATE:{day:%Y%m%d}",
+        f"DTEND;VALUE=DATE:{day + timedelta(days=1):%Y%m%d}",
+        f"SUMMARY:{ics_escape(summary)}",
+        f"DESCRIPTION:{ics_escape(description)}",
+        "TRANSP:TRANSPARENT",
+        "END:VEVENT",
+    ]
+
+
+def _not_placed_event(plan: Plan, stamp: str) -> list[str]:
+    """One event on the as-of day listing the drives the plan could not place (none: [])."""
+    rest = not_placed_frame(plan)
+    if rest.empty:
+        return []
+    day = plan.settings.as_of
+    n = len(rest)
+    summary = f"Not placed in the rebuild plan: {n} drive{'s' if n != 1 else ''}"
+    description = "\n".join(
+        [f"{r.unit} {r.position} ({r.not_placed}): {r.reason}" for r in rest.itertuples()]
+        + [ESTIMATE_NOTICE]
+    )
+    uid = hashlib.sha256(f"{day.isoformat()}|not placed".encode()).hexdigest()[:32]
+    return [
+        "BEGIN:VEVENT",
+        f"UID:{uid}@drivespan",
         f"DTSTAMP:{stamp}",
         f"DTSTART;VALUE=DATE:{day:%Y%m%d}",
         f"DTEND;VALUE=DATE:{day + timedelta(days=1):%Y%m%d}",
@@ -339,7 +380,8 @@ def plan_to_ics_bytes(
         positions; its description gives due dates, remaining hours, lateness, why
         this week, and the notice that dates are estimates and that qualified
         technicians and the maker's service limits decide. Unplanned components
-        have no event. The UID depends on the as-of date, unit and positions, so
+        have no event of their own: one event on the as-of day lists the drives that
+        could not be placed, with why. The UID depends on the as-of date, unit and positions, so
         re-exporting the same plan updates rather than duplicates events.
     """
     stamp = _check_ics_args(weekday, dtstamp)
@@ -354,6 +396,7 @@ def plan_to_ics_bytes(
     a = plan.assignments
     for _, group in a.groupby("downtime", sort=False):
         lines += _event_lines(group, plan, weekday, stamp)
+    lines += _not_placed_event(plan, stamp)
     lines.append("END:VCALENDAR")
     return "".join(ics_fold(line) for line in lines).encode("utf-8")
 

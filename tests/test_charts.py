@@ -50,7 +50,12 @@ def test_due_weeks_figure_counts_each_component_once_in_its_week():
     assert list(trace(fig, ACT).y) == [1, 0, 0, 0, 0]
     assert list(trace(fig, DUE).y) == [0, 1, 0, 0, 0]
     assert list(trace(fig, PLAN).y) == [0, 0, 0, 1, 0]
-    assert trace(fig, PLAN).x[3] == "16 Mar"  # week 2 starts 14 days after 2 Mar
+    assert trace(fig, PLAN).x[3] == "16 Mar 2026"  # week 2 starts 14 days after 2 Mar
+    assert trace(fig, PLAN).x[0] == charts.ALREADY_DUE
+    # status is never colour alone: each band has its own fill pattern and its name on the bar
+    shapes = [t.marker.pattern.shape for t in fig.data]
+    assert len(set(shapes)) == len(shapes)
+    assert trace(fig, PLAN).text[3] == "1" and PLAN in trace(fig, PLAN).hovertemplate
     assert "count" in fig.layout.yaxis.title.text
     assert "date" in fig.layout.xaxis.title.text
     assert "B-1 drive" in trace(fig, PLAN).customdata[3]
@@ -62,6 +67,20 @@ def test_due_weeks_figure_says_so_when_nothing_is_due():
     assert [t.name for t in fig.data] == ["(none)"]  # keeps the week axis
     assert list(fig.data[0].y) == [0] * 5
     assert "Nothing falls due" in fig.layout.annotations[0].text
+
+
+def test_week_labels_carry_the_year_across_the_new_year():
+    labels = charts.week_labels(date(2026, 12, 23), 3)  # a Wednesday
+    assert labels == [charts.ALREADY_DUE, "21 Dec 2026", "28 Dec 2026", "04 Jan 2027"]
+
+
+def test_relief_figure_without_a_cutoff_has_no_cutoff_bars():
+    monthly = pd.DataFrame({"month": [date(2026, 1, 1)], "relief_hours": [1.0],
+                            "cutoff_hours": [0.0], "relief_heat_kwh": [3.0]})  # fmt: skip
+    names = [t.name for t in charts.relief_figure(monthly, has_cutoff=False).data]
+    assert names == ["hours at relief", "heat dumped at relief"]
+    colours = {t.marker.color for t in charts.relief_figure(monthly).data}
+    assert not colours & set(charts.STATUS_COLOURS.values())  # not read as a status
 
 
 def test_status_colours_differ_and_unknown_bands_get_grey():

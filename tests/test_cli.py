@@ -97,6 +97,7 @@ def test_reliability_out_of_range(fleet_db):
 
 
 def test_no_registry(sqlite_url):
+    assert run("init", "--db", sqlite_url).exit_code == 0
     res = run("rank", "--db", sqlite_url)
     assert res.exit_code == 1
     assert "no fleet registry imported yet" in res.stderr
@@ -131,7 +132,10 @@ def test_unknown_unit_suggests_close_tags(fleet_db):
 def test_unit_table_and_json(fleet_db):
     res = run("unit", "PX-1", "--as-of", AS_OF, "--db", fleet_db)
     assert res.exit_code == 0, res.output
-    assert "wheel loader at Hollow Fen Yard" in res.stdout and "recent uploads:" in res.stdout
+    assert "wheel loader at Hollow Fen Yard" in res.stdout and "recent uploads:" not in res.stdout
+    assert "rebuild limit: case drain" in res.stdout and "Remaining [h]" in res.stdout
+    res = run("unit", "PX-1", "--as-of", AS_OF, "--all", "--db", fleet_db)
+    assert "recent uploads:" in res.stdout and "case-drain readings, left:" in res.stdout
     data = json.loads(
         run("unit", "PX-1", "--as-of", AS_OF, "--format", "json", "--db", fleet_db).stdout
     )

@@ -21,6 +21,7 @@ def fleet_db(tmp_path) -> str:
     """The small sample fleet with one day of histograms (tests/data)."""
     url = f"sqlite:///{tmp_path / 'fleet.db'}"
     runner = CliRunner()
+    assert runner.invoke(main, ["init", "--db", url]).exit_code == 0
     assert (
         runner.invoke(main, ["fleet", "import", str(DATA / "fleet.yaml"), "--db", url]).exit_code
         == 0
@@ -38,7 +39,10 @@ def test_plan_table_json_and_files(fleet_db, tmp_path):
     assert "estimates" in table.output  # the plan summary ends with the caution
     as_json = runner.invoke(main, [*args, "--format", "json"])
     assert as_json.exit_code == 0
-    assert isinstance(json.loads(as_json.output), list)
+    plan = json.loads(as_json.output)
+    assert set(plan) >= {"as_of", "first_week_start", "rebuilds", "not_placed"}
+    assert plan["first_week_start"] == "2026-03-02"  # the Monday of 2026-03-04 (ISO 8601)
+    assert "2026-W10 (Mon 2026-03-02)" in table.output  # weeks named by ISO week and Monday
 
     ics_path = tmp_path / "plan.ics"
     res = runner.invoke(main, [*args, "--format", "ics", "--output", str(ics_path)])
@@ -61,7 +65,8 @@ def test_plan_file_formats_need_an_output(fleet_db):
 def test_plan_rejects_a_negative_capacity_in_one_line(fleet_db):
     res = CliRunner().invoke(main, ["plan", "--db", fleet_db, "--capacity", "-2"])
     assert res.exit_code == 1
-    assert "capacity_per_week" in res.output and "Traceback" not in res.output
+    assert "--capacity must be a whole number >= 0" in res.output
+    assert "capacity_per_week" not in res.output and "Traceback" not in res.output
 
 
 def test_plan_save_stores_the_shop_settings(fleet_db):

@@ -6,6 +6,7 @@ the service, so the most urgent unit (AA-HOT) is known without the ranking code.
 
 from __future__ import annotations
 
+from datetime import timedelta
 from pathlib import Path
 
 import numpy as np
@@ -66,7 +67,9 @@ def test_sidebar_carries_the_cautions_on_every_page(store):
         assert not at.exception
         text = " ".join(w.value for w in at.sidebar.warning)
         assert "estimates" in text and "qualified technicians" in text, page
-        assert "relieve the pressure before opening any line" in text, page
+        assert "accumulators" in text and "lock out and tag out" in text, page
+        main = " ".join(c.value for c in at.main.caption)
+        assert "accumulators" in main and "lock out and tag out" in main, page  # no sidebar
 
 
 def test_fleet_page_ranks_the_hand_made_most_urgent_unit_first(store):
@@ -230,12 +233,13 @@ def test_settings_page_saves_and_refuses_unordered_bands(store):
     at = start("settings")
     assert "AA-HOT" in at.code[0].value  # the registry, read-only
     inputs = {n.label: n for n in at.number_input}
-    inputs["due at or below [h]"].set_value(2000.0)  # above plan (1000): refused
+    inputs["due soon at or below [h]"].set_value(2000.0)  # above plan (1000): refused
     at.button[0].click().run()  # the form's submit button
-    assert "Not saved" in at.error[0].value and "plan_h" in at.error[0].value
+    assert "Not saved" in at.error[0].value and "plan ahead" in at.error[0].value
+    assert "plan_h" not in at.error[0].value  # the words on the page, not internal names
     assert usecases.get_settings(usecases.init_db(store))["status_limits"]["due_h"] == 250.0
     inputs = {n.label: n for n in at.number_input}
-    inputs["due at or below [h]"].set_value(500.0)
+    inputs["due soon at or below [h]"].set_value(500.0)
     at.button[0].click().run()
     assert at.success, [e.value for e in at.error]
     assert usecases.get_settings(usecases.init_db(store))["status_limits"]["due_h"] == 500.0
@@ -252,7 +256,8 @@ def test_plan_page_plans_the_urgent_unit_in_week_zero(store):
     assert len(at.get("download_button")) == 3
     planned = next(d.value for d in at.dataframe if "on_time" in d.value.columns)
     assert list(planned["unit"].iloc[:2]) == ["AA-HOT", "AA-HOT"]
-    assert set(planned["week_start"].iloc[:2]) == {fx.AS_OF}  # week 0: already due
+    monday = fx.AS_OF - timedelta(days=fx.AS_OF.weekday())  # week 0: the as-of's ISO week
+    assert set(planned["week_start"].iloc[:2]) == {f"{monday:%G-W%V} (Mon {monday})"}
 
 
 def test_launch_command_sets_address_port_upload_limit_and_no_usage_stats():

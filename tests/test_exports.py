@@ -122,7 +122,8 @@ def test_plan_csv_reads_back_with_the_same_rows(plan):
     assert b"\r\n" in raw
     back = pd.read_csv(io.BytesIO(raw), dtype=str, keep_default_na=False)
     a = plan.assignments
-    assert list(back.columns) == list(a.columns)
+    assert list(back.columns) == ["state", *a.columns, "iso_week"]
+    back = back[back.state == "planned"]  # the drives not placed follow, with why
     assert len(back) == len(a)
     assert set(back.unit) == {"'=1+1", "Q;7,b\\x", "LATE-1", "LATE-2"}
     assert back.week.astype(int).tolist() == a.week.tolist()
@@ -271,8 +272,29 @@ def test_empty_plan_exports_have_headers_only():
     status = pd.DataFrame(columns=list(STATUS_COLUMNS))
     empty = plan_rebuilds(status, AS_OF, horizon_weeks=2, capacity_per_week=1)
     back = pd.read_csv(io.BytesIO(plan_to_csv_bytes(empty)))
-    assert back.empty and list(back.columns) == list(empty.assignments.columns)
+    assert back.empty and list(back.columns) == ["state", *empty.assignments.columns, "iso_week"]
     wb = openpyxl.load_workbook(io.BytesIO(plan_to_xlsx_bytes(empty)))
     assert [r for r in wb["rebuilds"].iter_rows(values_only=True)] == [
         tuple(empty.assignments.columns)
     ]
+
+
+def test_every_plan_format_names_the_drives_not_placed():
+    # capacity 1 with 2 due in week 0 and a 1-week horizon: one has no room; one has no date
+    rows = [
+        {"unit": u, "site": "S", "position": "left", "component_model": "M", "remaining_h": r,
+         "utilisation_h_per_day": 5.0, "due_date": AS_OF + timedelta(days=d), "status": "x",
+         "limiting": "bearing"}
+        for u, r, d in (("N-1", 10.0, 2), ("N-2", 12.0, 2))
+    ] + [{"unit": "N-3", "site": "S", "position": "left", "component_model": "M",
+          "remaining_h": 900.0, "utilisation_h_per_day": float("nan"), "due_date": None,
+          "status": "x", "limiting": "bearing"}]  # fmt: skip
+    plan = plan_rebuilds(pd.DataFrame(rows), AS_OF, horizon_weeks=1, capacity_per_week=1)
+    csv = pd.read_csv(io.BytesIO(plan_to_csv_bytes(plan)), dtype=str, keep_default_na=False)
+    states = dict(zip(csv.unit, csv.state, strict=True))
+    assert states == {"N-1": "planned", "N-2": "no room in the horizon",
+                      "N-3": "cannot be placed by date"}  # fmt: skip
+    ics = plan_to_ics_bytes(plan, dtstamp=datetime(2026, 3, 1, tzinfo=UTC)).decode()
+    assert "Not placed in the rebuild plan: 2 drives" in ics and "N-3 left" in ics
+    wb = openpyxl.load_workbook(io.BytesIO(plan_to_xlsx_bytes(plan)))
+    assert [r[0] for r in wb["unplanned"].iter_rows(values_only=True)][1:] == ["N-2"]

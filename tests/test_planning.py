@@ -76,11 +76,13 @@ def test_single_component_goes_to_its_due_week():
 def test_full_due_week_brings_the_later_due_one_forward():
     # capacity 1; both due in week 2; EDD takes the day-15 one first -> week 2;
     # the day-16 one finds week 2 full and goes to week 1 (on time)
+    # (weeks are ISO weeks: week 1 from AS_OF, a Monday, is 2026-W11)
     f = fleet(comp("A-1", days=16), comp("A-2", days=15))
     plan = plan_rebuilds(f, AS_OF, horizon_weeks=4, capacity_per_week=1)
     assert weeks_of(plan) == {("A-2", "left"): 2, ("A-1", "left"): 1}
     assert plan.late.empty
-    assert "brought forward to week 1" in plan.assignments.set_index("unit").loc["A-1", "reason"]
+    reason = plan.assignments.set_index("unit").loc["A-1", "reason"]
+    assert "brought forward to week 2026-W11 (Mon 2026-03-09)" in reason
 
 
 def test_capacity_forces_lateness_in_weeks_and_days():
@@ -94,7 +96,7 @@ def test_capacity_forces_lateness_in_weeks_and_days():
     assert late.loc["B", ["late_weeks", "late_days"]].tolist() == [1, 4]
     assert late.loc["A", ["late_weeks", "late_days"]].tolist() == [2, 11]
     assert plan.max_late_days == 11
-    assert "earliest week with room is week 2" in late.loc["A", "reason"]
+    assert "earliest week with room: 2026-W12 (Mon 2026-03-16)" in late.loc["A", "reason"]
 
 
 def test_ties_broken_by_tag_and_input_order_does_not_matter():
@@ -500,3 +502,16 @@ def test_every_public_name_is_still_importable_from_planning():
     assert not missing, f"monitor.planning no longer exports {missing}"
     assert set(planning.__all__) <= set(dir(planning))
     assert planning.Plan is types.Plan and planning.plan_summary is report.plan_summary
+
+
+def test_weeks_are_calendar_weeks_from_monday_when_the_as_of_is_midweek():
+    # as-of Thursday 2026-12-31 (ISO 2026-W53); due Tuesday 2027-01-05 -> ISO 2027-W01,
+    # week 1, which starts on Monday 2027-01-04 (ISO 8601 calendar, hand-checked)
+    as_of = date(2026, 12, 31)
+    f = fleet(comp("Y-1", days=None))
+    f.loc[0, "due_date"] = date(2027, 1, 5)
+    plan = plan_rebuilds(f, as_of, horizon_weeks=4, capacity_per_week=1)
+    row = plan.assignments.iloc[0]
+    assert (row.week, row.week_start, row.late_days) == (1, date(2027, 1, 4), 0)
+    assert plan.settings.week_label(0) == "2026-W53 (Mon 2026-12-28)"
+    assert plan.settings.week_label(1) == "2027-W01 (Mon 2027-01-04)"

@@ -33,7 +33,7 @@ if table.empty:
     st.stop()
 
 st.subheader("Model against field")
-st.dataframe(table, hide_index=True, key="cal_table", column_config=ui.labels(table))
+st.dataframe(ui.readable(table), hide_index=True, key="cal_table", column_config=ui.labels(table))
 factors = data.life_factors(ctx.url)
 if not factors.empty:
     st.caption(

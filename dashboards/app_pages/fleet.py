@@ -20,6 +20,8 @@ if fleet.empty:
             "Upload page.")  # fmt: skip
     st.stop()
 
+st.html(ui.attention_html(fleet))
+st.caption("Whole fleet, by status:")
 st.html(ui.status_chips(fleet))
 weeks = st.segmented_control(
     "Look ahead [weeks]", [4, 12, 26, 52], default=12, key="f_weeks", required=True
@@ -37,7 +39,8 @@ models = f4.multiselect("Component model", ui.options(fleet, "component_model"),
 search = f5.text_input("Search tag", key="f_search", placeholder="e.g. part of a unit tag")
 
 shown = ui.filter_fleet(fleet, sites, bands, types, models, search)
-st.caption(f"{len(shown)} of {len(fleet)} components shown.")
+st.caption(f"{len(shown)} of {len(fleet)} components shown (the filters apply to this table "
+           "and its download; the list and figures above are of the whole fleet).")  # fmt: skip
 event = st.dataframe(
     ui.table_frame(shown),
     column_config=ui.column_config(),

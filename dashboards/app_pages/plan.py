@@ -61,7 +61,8 @@ a = plan.assignments
 m1, m2, m3, m4 = st.columns(4)
 m1.metric("Rebuilds planned", len(a))
 m2.metric("Late", len(plan.late), help="Planned after their due date")
-m3.metric("No room in horizon", len(plan.unplanned))
+m3.metric("Not placed", len(outputs.not_placed_frame(plan)),
+          help="No room in the horizon, or no due date")  # fmt: skip
 m4.metric("Largest lateness [days]", plan.max_late_days)
 
 st.plotly_chart(
@@ -75,14 +76,17 @@ st.subheader("Planned rebuilds")
 st.caption("Late rebuilds (after their due date) are shaded and marked LATE.")
 st.dataframe(plan_view.late_style(a), hide_index=True, key="plan_table",
              column_config=plan_view.PLAN_LABELS)  # fmt: skip
-if len(plan.unplanned):
-    st.subheader("No room within the horizon")
-    st.dataframe(plan.unplanned, hide_index=True, key="plan_unplanned",
+rest = outputs.not_placed_frame(plan)
+if len(rest):
+    st.subheader(f"Not placed ({len(rest)})")
+    st.dataframe(ui.readable(rest), hide_index=True, key="plan_unplanned",
                  column_config=plan_view.PLAN_LABELS)  # fmt: skip
-if len(plan.unscheduled):
-    st.subheader("Cannot be placed by date")
-    st.dataframe(plan.unscheduled, hide_index=True, key="plan_unscheduled",
-                 column_config=plan_view.PLAN_LABELS)  # fmt: skip
+with st.expander("Why each rebuild is in its week (full text)"):
+    for r in a.itertuples():
+        st.markdown(f"- **{r.unit} {r.position}**, week {plan_view.week_text(r.week_start)}: "
+                    f"{r.reason}")  # fmt: skip
+    for r in rest.itertuples():
+        st.markdown(f"- **{r.unit} {r.position}**, not placed ({r.not_placed}): {r.reason}")
 
 d1, d2, d3 = st.columns(3)
 stem = f"drivespan-plan-{ctx.as_of.isoformat()}"
@@ -93,4 +97,3 @@ d2.download_button("Plan as Excel workbook", outputs.plan_to_xlsx_bytes(plan), f
                    key="plan_xlsx")  # fmt: skip
 d3.download_button("Plan as calendar (iCalendar)", outputs.plan_to_ics_bytes(plan), f"{stem}.ics",
                    "text/calendar", key="plan_ics")  # fmt: skip
-st.caption(outputs.ESTIMATE_NOTICE)

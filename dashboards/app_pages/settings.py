@@ -6,6 +6,7 @@ import streamlit as st
 
 from dashboards import data, ui
 from monitor import usecases
+from monitor.domain.vocabulary import STATUS_BANDS
 
 ctx = ui.context()
 current = data.settings(ctx.url)
@@ -28,13 +29,26 @@ with st.form("settings_form"):
         value=float(current["rate_window_h"]),
         help="The damage rate is taken over the most recent uploads adding up to this.",
     )  # fmt: skip
-    st.markdown("**Status bands** — remaining hours at or below each limit")
+    st.markdown(
+        "**Status bands** — a drive is in a band when its remaining hours are at or below "
+        f"the band's limit; above the last it is {STATUS_BANDS[3]}"
+    )
     b1, b2, b3 = st.columns(3)
     overdue = b1.number_input(
-        "overdue at or below [h]", value=float(limits["overdue_h"]), step=10.0
+        f"{STATUS_BANDS[0]} at or below [h]",
+        value=float(limits["overdue_h"]),
+        step=10.0,
+        format="%.0f",
     )
-    due = b2.number_input("due at or below [h]", value=float(limits["due_h"]), step=50.0)
-    plan = b3.number_input("plan at or below [h]", value=float(limits["plan_h"]), step=100.0)
+    due = b2.number_input(
+        f"{STATUS_BANDS[1]} at or below [h]", value=float(limits["due_h"]), step=50.0, format="%.0f"
+    )
+    plan = b3.number_input(
+        f"{STATUS_BANDS[2]} at or below [h]",
+        value=float(limits["plan_h"]),
+        step=100.0,
+        format="%.0f",
+    )
     d1, d2 = st.columns(2)
     stale = d1.number_input("Stale data after [days]", min_value=1, step=1,
                             value=int(current["stale_days"]))  # fmt: skip
@@ -80,7 +94,7 @@ if submitted:
     try:
         data.save_settings(ctx.url, values)
     except usecases.DomainError as err:
-        ui.show_error(f"Not saved: {err}", err.problems)
+        ui.show_error(f"Not saved: {ui.setting_words(str(err))}", err.problems)
     else:
         st.success("Settings saved; the ranking uses them from now on.")
 

@@ -38,7 +38,7 @@ head.caption(f"{info.get('site', '')} · {info.get('machine_type', '')} · oil {
 with st.container(border=True):
     st.markdown("**Why this unit stands where it does**")
     st.markdown(ui.summary_markdown(report.summary))
-st.dataframe(ui.table_frame(report.status).drop(columns=["unit", "site", "machine_type"]),
+st.dataframe(ui.table_frame(report.status).drop(columns=["site", "machine_type"]),
              column_config=ui.column_config(), hide_index=True, key="u_status")  # fmt: skip
 
 settings = data.settings(ctx.url)
@@ -86,12 +86,14 @@ for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict
     row = ui.status_row(report.status, pos)
     with tab:
         st.caption(ui.model_caption(detail.model))
+        # one row of two per pair, so that on a phone the charts stack in reading order
         left, right = st.columns(2)
         left.plotly_chart(
             charts.spectrum_figure(detail.spectrum, detail.model.relief_bar,
                                    detail.model.cutoff_bar), key=f"spec_{pos}")  # fmt: skip
         right.plotly_chart(charts.life_figure(detail.life, detail.projection), key=f"life_{pos}")
         line, crossing = ui.trend_line(detail, row)
+        left, right = st.columns(2)
         left.plotly_chart(
             charts.case_drain_figure(
                 detail.case_drain, detail.case_drain_limit_lpm, line, crossing
@@ -99,11 +101,14 @@ for pos, tab in zip(positions, st.tabs([f"{p} loop" for p in positions]), strict
             key=f"drain_{pos}",
         )
         left.caption(drain_note)
-        right.plotly_chart(charts.relief_figure(detail.relief_monthly), key=f"relief_{pos}")
+        has_cutoff = detail.model.cutoff_bar is not None
+        right.plotly_chart(charts.relief_figure(detail.relief_monthly, has_cutoff),
+                           key=f"relief_{pos}")  # fmt: skip
         right.caption(relief_note)
+        left, right = st.columns(2)
         left.plotly_chart(charts.oil_figure(detail.oil_samples), key=f"oil_{pos}")
         right.markdown("**Oil samples**")
-        right.dataframe(detail.oil_samples, hide_index=True, key=f"oil_t_{pos}",
+        right.dataframe(ui.readable(detail.oil_samples), hide_index=True, key=f"oil_t_{pos}",
                         column_config=ui.labels(detail.oil_samples))  # fmt: skip
         if detail.traces:
             show_trace(pos, detail)
@@ -112,8 +117,8 @@ st.subheader("Service history")
 if report.service_history.empty:
     st.caption("No rebuilds, replacements or hour-meter changes recorded.")
 else:
-    st.dataframe(report.service_history, hide_index=True, key="u_history",
+    st.dataframe(ui.readable(report.service_history), hide_index=True, key="u_history",
                  column_config=ui.labels(report.service_history))  # fmt: skip
 st.subheader("Recent uploads")
-st.dataframe(report.uploads, hide_index=True, key="u_uploads",
+st.dataframe(ui.readable(report.uploads), hide_index=True, key="u_uploads",
              column_config=ui.labels(report.uploads))  # fmt: skip

@@ -37,7 +37,14 @@ if registry_first and st.button("Check and store", type="primary", key="upload_g
 results = st.session_state.get("upload_results", [])
 if results:
     st.subheader("Result per file")
-    st.dataframe(ui.results_frame(results), hide_index=True, key="upload_summary")
+    st.dataframe(
+        ui.results_frame(results),
+        hide_index=True,
+        key="upload_summary",
+        column_config={"Summary": st.column_config.TextColumn("Summary", width="large")},
+    )
+    for r in results:  # the summaries in full, as a table cell may cut them
+        st.markdown(f"- {r.summary}")
 for r in results:
     if r.status == "rejected":
         with st.container(border=True):

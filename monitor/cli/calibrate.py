@@ -6,7 +6,7 @@ from __future__ import annotations
 import click
 
 from monitor import usecases
-from monitor.cli.common import db_option, domain_errors, emit, main
+from monitor.cli.common import db_option, domain_errors, emit, main, open_db
 
 CALIBRATE_TABLE_COLUMNS = [
     "component_model",
@@ -92,7 +92,7 @@ def calibrate_cmd(
 
     Example: drivespan calibrate --model HX-90 --format json
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     if accept and undo:
         raise usecases.DomainError("give either --accept or --undo, not both")
     if accept:

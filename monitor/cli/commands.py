@@ -4,7 +4,6 @@ runs, so ``--help`` stays fast."""
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
 
@@ -12,17 +11,16 @@ import click
 
 from monitor import usecases
 from monitor.cli.common import (
-    RANK_TABLE_COLUMNS,
     _as_of,
-    _frame_records,
-    _notice,
     _print_results,
-    _table_rows,
+    csv_records,
     db_option,
     domain_errors,
     emit,
     format_option,
     main,
+    open_db,
+    print_ranking,
 )
 
 
@@ -34,7 +32,7 @@ def init(db_url: str) -> None:
 
     Example: drivespan init --db sqlite:///fleet.db
     """
-    usecases.init_db(db_url).dispose()
+    open_db(db_url, create=True).dispose()
     click.echo(f"schema is up to date in {usecases.display_url(db_url)}")
 
 
@@ -50,9 +48,9 @@ def fleet() -> None:
 def fleet_import(path: Path, db_url: str) -> None:
     """Import a fleet registry YAML file (a second import of the same file changes nothing).
 
-    Example: drivespan fleet import demo_fleet/sample/fleet.yaml
+    Example: drivespan fleet import demo_fleet/sample/registry.yaml
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     counts = usecases.import_registry(engine, path.read_bytes(), path.name)
     click.echo(
         f"{path.name}: {counts.created} created, {counts.updated} updated, "
@@ -68,13 +66,13 @@ def fleet_show(db_url: str) -> None:
 
     Example: drivespan fleet show
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     text = usecases.show_registry(engine)
     if text is None:
         raise usecases.DomainError(
             "no fleet registry imported yet: run drivespan fleet import FILE"
         )
-    click.echo(text, nl=False)
+    click.echo(text, nl=False if text.endswith("\n") else True)
     factors = usecases.factors_in_force(engine)
     if not factors.empty:
         click.echo("\n# accepted life factors (drivespan calibrate), in force on top of the")
@@ -84,6 +82,19 @@ def fleet_show(db_url: str) -> None:
                 f"#   {row.component_model}: x {row.factor:.4g} since "
                 f"{row.accepted_at:%Y-%m-%d} ({row.proposed_by})"
             )
+    click.echo(_registry_total(engine))
+
+
+def _registry_total(engine) -> str:  # noqa: ANN001
+    """One line: how many sites, units and drives the store's registry holds."""
+    from monitor.domain.vocabulary import plural
+
+    df = usecases.fleet_status(engine)
+    sites, units = df["site"].nunique(), df["unit"].nunique()
+    return (
+        f"# total: {plural(sites, 'site')}, {plural(units, 'unit')}, "
+        f"{plural(len(df), 'drive')} in the store"
+    )
 
 
 @main.command("ingest")
@@ -99,15 +110,34 @@ def ingest_cmd(paths: tuple[Path, ...], dry_run: bool, db_url: str) -> None:
 
     Example: drivespan ingest exports/ --dry-run
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     files = usecases.expand_paths(paths)
     results = []
     with click.progressbar(files, label="ingesting", file=sys.stderr) as bar:
         for path in bar:
             results.append(usecases.upload_path(engine, path, dry_run=dry_run))
     rejected = _print_results(results)
+    click.echo(_ingest_total(results, dry_run))
     if rejected:
         sys.exit(1)
+
+
+def _ingest_total(results: list, dry_run: bool) -> str:
+    """One line: how many files were accepted (or valid), duplicates and rejected."""
+    from monitor.domain.vocabulary import plural
+
+    count = {s: sum(r.status == s for r in results) for s in (
+        usecases.ACCEPTED, usecases.VALID, usecases.DUPLICATE, usecases.REJECTED)}  # fmt: skip
+    good = count[usecases.VALID] if dry_run else count[usecases.ACCEPTED]
+    word = "valid" if dry_run else "accepted"
+    hist = sum(r.histograms for r in results)
+    reads = sum(r.readings for r in results)
+    tail = " (dry run: nothing stored)" if dry_run else ""
+    return (
+        f"total: {plural(len(results), 'file')}: {good} {word}, {count[usecases.DUPLICATE]} "
+        f"duplicate, {count[usecases.REJECTED]} rejected; {plural(hist, 'histogram')}, "
+        f"{plural(reads, 'reading')}{tail}"
+    )
 
 
 @main.command()
@@ -118,7 +148,7 @@ def recompute(db_url: str) -> None:
 
     Example: drivespan recompute
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     with click.progressbar(length=1, label="recomputing", file=sys.stderr) as bar:
 
         def progress(done: int, total: int) -> None:
@@ -134,7 +164,7 @@ def recompute(db_url: str) -> None:
     "--as-of",
     "as_of",
     metavar="DATE",
-    help="Status at the start of this day (YYYY-MM-DD); default today.",
+    help="Status at the start of this day (YYYY-MM-DD); default now.",
 )
 @click.option(
     "--reliability",
@@ -154,7 +184,7 @@ def rank_cmd(
 
     Example: drivespan rank --as-of 2026-12-01 --reliability 95 --format json
     """
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     day = _as_of(as_of)
     if not usecases.has_registry(engine):
         raise usecases.DomainError(
@@ -164,12 +194,10 @@ def rank_cmd(
     records = usecases.rank_records(df)
     if fmt == "json":
         emit(records, fmt)
-        return
-    if fmt == "csv":
-        emit(_table_rows(records, list(usecases.RANK_COLUMNS)), fmt)
-        return
-    emit(_table_rows(records, RANK_TABLE_COLUMNS), fmt, RANK_TABLE_COLUMNS)
-    _notice()
+    elif fmt == "csv":
+        emit(csv_records(records), fmt, list(usecases.RANK_COLUMNS))
+    else:
+        print_ranking(records, day, usecases.status_instant(day)[1])
 
 
 @main.command("unit")
@@ -178,67 +206,30 @@ def rank_cmd(
     "--as-of",
     "as_of",
     metavar="DATE",
-    help="Status at the start of this day (YYYY-MM-DD); default today.",
+    help="Status at the start of this day (YYYY-MM-DD); default now.",
 )
+@click.option("--all", "show_all", is_flag=True, help="Also list recent uploads and every reading.")
 @format_option
 @db_option
 @domain_errors
-def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
-    """Show one unit: its drives' status, recent uploads, readings, service history and
-    pressure traces (start, length, peak, cycles per hour above each range level, notes).
+def unit_cmd(tag: str, as_of: str | None, show_all: bool, fmt: str, db_url: str) -> None:
+    """Show one unit: per drive its status, why, the last readings and the rebuild limit;
+    with --all also its recent uploads and every case-drain reading.
 
-    Example: drivespan unit QX-104 --as-of 2026-12-01
+    Example: drivespan unit QX-104 --as-of 2026-12-01 --all
     """
-    engine = usecases.init_db(db_url)
-    rep = usecases.unit_report(engine, tag, _as_of(as_of))
+    from monitor.cli import unit_view
+
+    engine = open_db(db_url)
+    day = _as_of(as_of)
+    rep = usecases.unit_report(engine, tag, day)
     status = usecases.rank_records(rep.status)
-    readings = {pos: _frame_records(d.case_drain) for pos, d in rep.components.items()}
     if fmt == "json":
-        click.echo(
-            json.dumps(
-                {
-                    "unit": rep.unit,
-                    "status": status,
-                    "uploads": _frame_records(rep.uploads),
-                    "case_drain_readings": readings,
-                    "service_history": _frame_records(rep.service_history),
-                    "traces": _frame_records(rep.traces),
-                    "summary": rep.summary,
-                },
-                indent=2,
-                default=str,
-            )
-        )
-        return
-    if fmt == "csv":
-        emit(_table_rows(status, list(status[0]) if status else []), fmt)
-        return
-    u = rep.unit
-    click.echo(f"{u['tag']} - {u['machine_type']} at {u['site']}, oil {u['oil']}\n")
-    emit(_table_rows(status, RANK_TABLE_COLUMNS), fmt, RANK_TABLE_COLUMNS)
-    for title, df in (("recent uploads", rep.uploads), ("service history", rep.service_history)):
-        click.echo(f"\n{title}:")
-        emit(_frame_records(df), "table", list(df.columns))
-    for pos, rows in readings.items():
-        click.echo(f"\ncase-drain readings, {pos}:")
-        cols = ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"]
-        emit(rows, "table", [*cols, "off_reference"])
-    _echo_traces(rep.traces)
-    click.echo("")
-    for line in rep.summary:
-        click.echo(line)
-
-
-def _echo_traces(traces) -> None:  # noqa: ANN001 - pandas.DataFrame
-    """The unit's pressure traces as a table, their notes below it (nothing without any)."""
-    if traces.empty:
-        return
-    click.echo("\npressure traces:")
-    table = traces.drop(columns=["notes"]).round(1)
-    emit(_frame_records(table), "table", list(table.columns))
-    for row in traces.itertuples(index=False):
-        for note in filter(None, row.notes.split("\n\n")):
-            click.echo(f"  {row.position}, {row.file}: {note}")
+        emit(unit_view.unit_json(rep, status), "json")
+    elif fmt == "csv":
+        emit(csv_records(status), fmt, list(usecases.RANK_COLUMNS))
+    else:
+        unit_view.print_unit(rep, status, day, usecases.status_instant(day)[1], show_all)
 
 
 @main.group("service")
@@ -309,7 +300,7 @@ def service_add(
         raise usecases.DomainError(
             f"--at {at!r} is not an ISO 8601 time: write e.g. 2026-11-20T08:00:00Z"
         ) from None
-    engine = usecases.init_db(db_url)
+    engine = open_db(db_url)
     ev = usecases.add_service_event(
         engine,
         tag,

@@ -43,7 +43,8 @@ def format_option(f: Callable) -> Callable:
 
 
 def domain_errors(f: Callable) -> Callable:
-    """Turn a DomainError into one line (plus its problems) on stderr and exit 1."""
+    """Turn a DomainError into one line (plus its problems) on stderr and exit 1; any other
+    error becomes one line too (exit 2), its traceback going to the log (``--log-file``)."""
 
     @wraps(f)
     def wrapper(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
@@ -54,8 +55,37 @@ def domain_errors(f: Callable) -> Callable:
             for p in err.problems:
                 click.echo(f"  {p}", err=True)
             sys.exit(1)
+        except (click.ClickException, click.exceptions.Exit, click.Abort):
+            raise
+        except BrokenPipeError:  # the reader (e.g. `| head`) stopped reading: not an error
+            import os
+
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+            sys.exit(0)
+        except OSError as err:  # a file the user named cannot be read or written
+            where = f" {err.filename}" if getattr(err, "filename", None) else ""
+            click.echo(f"error: cannot use{where}: {err.strerror or err}", err=True)
+            sys.exit(1)
+        except Exception as err:  # noqa: BLE001 - the last line of defence: no traceback
+            import logging
+
+            logging.getLogger("monitor").exception("internal error in drivespan %s", f.__name__)
+            click.echo(
+                f"error: internal error ({type(err).__name__}: {str(err)[:200]}); nothing more "
+                "was done. Please report it; drivespan --log-file FILE ... keeps the details.",
+                err=True,
+            )
+            sys.exit(2)
 
     return wrapper
+
+
+def open_db(db_url: str, *, create: bool = False):  # noqa: ANN201 - sqlalchemy Engine
+    """The store at ``db_url``, upgraded; a SQLite file that does not exist is refused
+    unless ``create`` (only ``init`` creates a store)."""
+    from monitor import usecases
+
+    return usecases.init_db(db_url, create=create)
 
 
 LOG_FILE_ENV = "DRIVESPAN_LOG_FILE"
@@ -104,12 +134,14 @@ def _print_results(results: list) -> int:
     return rejected
 
 
-def emit(rows: list[dict], fmt: str, columns: list[str] | None = None) -> None:
+def emit(rows: list[dict] | dict, fmt: str, columns: list[str] | None = None) -> None:
     """Print records as an aligned table, CSV or JSON."""
     import pandas as pd
 
     if fmt == "json":
-        click.echo(json.dumps(rows, indent=2, default=str))
+        from monitor.cli.tables import tidy_floats
+
+        click.echo(json.dumps(tidy_floats(rows), indent=2, default=str))
         return
     df = pd.DataFrame(rows, columns=columns)
     if fmt == "csv":
@@ -121,20 +153,6 @@ def emit(rows: list[dict], fmt: str, columns: list[str] | None = None) -> None:
 
 
 # --- fleet status, one unit, service events ----------------------------------------
-
-RANK_TABLE_COLUMNS = [
-    "unit",
-    "position",
-    "component_model",
-    "remaining_h",
-    "limiting",
-    "due_date",
-    "status",
-    "consumed_fraction",
-    "remaining_wear_h",
-    "utilisation_h_per_day",
-    "flags",
-]
 
 
 def _as_of(value: str | None):  # noqa: ANN202 - datetime.date | None
@@ -150,20 +168,21 @@ def _as_of(value: str | None):  # noqa: ANN202 - datetime.date | None
         ) from None
 
 
-def _table_rows(records: list[dict], columns: list[str]) -> list[dict]:
-    """Records rounded for reading on a terminal (hours whole, fractions 3 digits)."""
-    out = []
-    for rec in records:
-        row = {}
-        for c in columns:
-            v = rec.get(c)
-            if isinstance(v, float):
-                v = round(v, 4) if c in ("consumed_fraction", "damage_rate_per_h") else round(v, 1)
-            elif isinstance(v, list):
-                v = ",".join(v)
-            row[c] = "-" if v is None else v
-        out.append(row)
-    return out
+def print_ranking(records: list[dict], as_of, at) -> None:  # noqa: ANN001 - date, datetime
+    """The ranking for a terminal: which instant, the table, the counts and the notice."""
+    from monitor.cli import tables
+
+    when = f"{at:%Y-%m-%d %H:%M} UTC (now)" if as_of is None else f"start of {at:%Y-%m-%d} UTC"
+    click.echo(f"status at {when}; most urgent first")
+    rows = [tables.rank_row(r) for r in records]
+    click.echo(tables.render(rows, list(tables.RANK_TABLE.values())))
+    click.echo("\n" + tables.status_counts(records))
+    _notice()
+
+
+def csv_records(records: list[dict]) -> list[dict]:
+    """Records for CSV at full precision (flag lists joined with ";")."""
+    return [{k: ";".join(v) if isinstance(v, list) else v for k, v in r.items()} for r in records]
 
 
 def _notice() -> None:

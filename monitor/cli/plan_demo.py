@@ -8,15 +8,15 @@ from pathlib import Path
 import click
 
 from monitor import usecases
+from monitor.cli import tables
 from monitor.cli.common import (
-    RANK_TABLE_COLUMNS,
     _as_of,
     _notice,
-    _table_rows,
     db_option,
     domain_errors,
     emit,
     main,
+    open_db,
 )
 
 PLAN_FORMATS = ("table", "csv", "json", "xlsx", "ics")
@@ -65,61 +65,130 @@ def plan_cmd(
     from monitor.usecases import outputs
     from monitor.usecases import plan as service_plan
 
-    engine = usecases.init_db(db_url)
+    _check_output(fmt, output)
+    engine = open_db(db_url)
     if not usecases.has_registry(engine):
         raise usecases.DomainError(
             "no fleet registry imported yet: run drivespan fleet import FILE, then ingest telemetry"
         )
-    if save:
-        service_plan.save_plan_settings(
+    with _option_names():
+        if save:
+            given = (("horizon_weeks", weeks), ("capacity_per_week", capacity))
+            service_plan.save_plan_settings(engine, {k: v for k, v in given if v is not None})
+        plan = service_plan.make_plan(
             engine,
-            {
-                k: v
-                for k, v in (("horizon_weeks", weeks), ("capacity_per_week", capacity))
-                if v is not None
-            },
+            _as_of(as_of),
+            reliability_pct=reliability,
+            horizon_weeks=weeks,
+            capacity_per_week=capacity,
         )
-    plan = service_plan.make_plan(
-        engine,
-        _as_of(as_of),
-        reliability_pct=reliability,
-        horizon_weeks=weeks,
-        capacity_per_week=capacity,
-    )
-    if fmt in ("xlsx", "ics") and output is None:
-        raise usecases.DomainError(f"--format {fmt} writes a file: add --output FILE")
     if fmt in ("csv", "xlsx", "ics"):
         data = outputs.plan_export_bytes(plan, fmt)
         if output is None:
             click.echo(data.decode("utf-8"), nl=False)
         else:
             output.write_bytes(data)
-            click.echo(f"plan written to {output} ({len(plan.assignments)} rebuild(s))")
+            n, rest = len(plan.assignments), len(outputs.not_placed_frame(plan))
+            click.echo(
+                f"plan written to {output} ({n} rebuild{'s' if n != 1 else ''}; "
+                f"{rest} drive{'s' if rest != 1 else ''} not placed)"
+            )
         return
     if fmt == "json":
-        rows = [
-            {k: fleet_plain(v) for k, v in r.items()} for r in plan.assignments.to_dict("records")
-        ]
-        emit(rows, "json")
+        _plan_json(plan, outputs)
         return
-    for line in outputs.plan_summary(plan):
-        click.echo(line)
-    cols = [
-        "week",
-        "week_start",
-        "unit",
-        "position",
-        "site",
-        "due_date",
-        "late_days",
-        "paired_with",
+    _plan_table(plan, outputs)
+
+
+def _check_output(fmt: str, output: Path | None) -> None:
+    """Refuse a missing --output for file formats, or one in a folder that does not exist,
+    before any work is done."""
+    if fmt in ("xlsx", "ics") and output is None:
+        raise usecases.DomainError(f"--format {fmt} writes a file: add --output FILE")
+    if output is not None and not output.resolve().parent.is_dir():
+        raise usecases.DomainError(
+            f"--output {output}: folder {output.resolve().parent} does not exist; create it "
+            "first or name a file in an existing folder"
+        )
+
+
+OPTION_NAMES = {
+    "capacity_per_week": "--capacity",
+    "horizon_weeks": "--weeks",
+    "reliability_pct": "--reliability",
+    "as_of": "--as-of",
+}
+"""The plan's internal setting names and the options a user types for them."""
+
+
+class _option_names:
+    """Re-word a DomainError raised inside so that it names the command's options."""
+
+    def __enter__(self) -> None:
+        return None
+
+    def __exit__(self, kind, err, tb) -> bool:  # noqa: ANN001
+        if isinstance(err, usecases.DomainError):
+            text = str(err)
+            for name, option in OPTION_NAMES.items():
+                text = text.replace(name, option)
+            raise usecases.DomainError(text, err.problems) from None
+        return False
+
+
+def _plan_json(plan, outputs) -> None:  # noqa: ANN001
+    """The plan as one JSON object: its settings, the rebuilds and the drives not placed."""
+    s = plan.settings
+    rebuilds = [
+        {k: fleet_plain(v) for k, v in r.items()} | {"iso_week": s.week_label(r["week"])[:8]}
+        for r in plan.assignments.to_dict("records")
     ]
-    click.echo("")
+    rest = [{k: fleet_plain(v) for k, v in r.items()} for r in
+            outputs.not_placed_frame(plan).to_dict("records")]  # fmt: skip
     emit(
-        [{k: fleet_plain(r[k]) for k in cols} for r in plan.assignments.to_dict("records")],
-        "table",
-        cols,
+        {
+            "as_of": s.as_of.isoformat(),
+            "first_week_start": s.week_start(0).isoformat(),
+            "horizon_weeks": s.horizon_weeks,
+            "capacity_per_week": s.capacity_per_week,
+            "rebuilds": rebuilds,
+            "not_placed": rest,
+        },
+        "json",
     )
+
+
+PLAN_TABLE_COLUMNS = {
+    "downtime": "Downtime",
+    "week": "Week",
+    "unit": "Unit",
+    "position": "Position",
+    "site": "Site",
+    "due_date": "Due date",
+    "late_days": "Late [days]",
+    "paired_with": "With",
+}
+
+
+def _plan_table(plan, outputs) -> None:  # noqa: ANN001
+    """The plan for a terminal: summary, rebuilds by week, the drives not placed and why."""
+    lines = outputs.plan_summary(plan)
+    for line in lines[:-1]:
+        click.echo(line)
+    rows = []
+    for r in plan.assignments.to_dict("records"):
+        row = {k: fleet_plain(r[k]) for k in PLAN_TABLE_COLUMNS}
+        row["week"] = plan.settings.week_label(r["week"])
+        row["late_days"] = row["late_days"] or ""
+        rows.append({PLAN_TABLE_COLUMNS[k]: v if v is not None else "" for k, v in row.items()})
+    click.echo("")
+    click.echo(tables.render(rows, list(PLAN_TABLE_COLUMNS.values())))
+    rest = outputs.not_placed_frame(plan)
+    if len(rest):
+        click.echo(f"\nnot placed ({len(rest)}):")
+        for r in rest.itertuples():
+            click.echo(f"  {r.unit} {r.position} - {r.not_placed}: {r.reason}")
+    click.echo("\n" + lines[-1], err=True)
 
 
 def fleet_plain(value):  # noqa: ANN001, ANN201
@@ -154,7 +223,7 @@ def dashboard_cmd(port: int, host: str, password_file: Path | None, db_url: str)
     password_hash = None
     if password_file is not None:
         password_hash = usecases.hash_password(usecases.read_password_file(password_file))
-    usecases.init_db(db_url).dispose()
+    open_db(db_url).dispose()
     if not usecases.is_loopback(host):
         _exposed_warning(host, port, password_hash is not None)
     guard = "password required" if password_hash else "no password"
@@ -166,6 +235,19 @@ def dashboard_cmd(port: int, host: str, password_file: Path | None, db_url: str)
     except KeyboardInterrupt:
         proc.terminate()
         proc.wait(timeout=10)
+
+
+DEMO_BROKEN_FILE = "broken_export.csv"
+"""The demo's export that is broken on purpose (to show a refused file)."""
+
+
+def _demo_db_arg(folder: Path) -> str:
+    """The demo store as a --db argument: relative to the working folder when inside it."""
+    path = (folder / "demo.db").resolve()
+    try:
+        return str(path.relative_to(Path.cwd()))
+    except ValueError:
+        return str(path)
 
 
 DEMO_CONFIDENCE = 0.90
@@ -268,22 +350,27 @@ def demo_cmd(
     accepted = sum(r.status == usecases.ACCEPTED for r in res.results)
     click.echo(
         f"demo fleet in {res.folder} ({time.perf_counter() - t0:.0f} s): "
-        f"{accepted} file(s) accepted, {len(rejected)} rejected"
+        f"{accepted} files accepted, {len(rejected)} rejected"
     )
     for r in rejected:
-        click.echo(r.summary)
+        on_purpose = r.name == DEMO_BROKEN_FILE
+        click.echo(r.summary + (" - broken on purpose, to show how a bad file is refused"
+                                if on_purpose else ""))  # fmt: skip
         for p in r.problems:
             click.echo(f"  {p}")
     engine = usecases.init_db(res.db_url)
     df = usecases.fleet_status(engine, res.as_of)
-    click.echo(f"\nranking as of {res.as_of.isoformat()} (most urgent first, top 15 of {len(df)}):")
-    records = usecases.rank_records(df)[:15]
-    emit(_table_rows(records, RANK_TABLE_COLUMNS), "table", RANK_TABLE_COLUMNS)
+    records = usecases.rank_records(df)
+    click.echo(f"\nranking as of {res.as_of.isoformat()} (top 15 of {len(records)} drives):")
+    rows = [tables.rank_row(r) for r in records[:15]]
+    click.echo(tables.render(rows, list(tables.RANK_TABLE.values())))
+    click.echo("\n" + tables.status_counts(records))
     _notice()
-    shown = usecases.display_url(res.db_url)
     click.echo(f"\n{_calibration_line(engine)}")
-    click.echo(f"\nmore: drivespan rank --db {shown} --as-of {res.as_of.isoformat()}")
-    click.echo(f"      drivespan calibrate --db {shown}")
+    db = _demo_db_arg(res.folder)
+    click.echo(f"\nmore: drivespan rank --db {db} --as-of {res.as_of.isoformat()}")
+    click.echo(f"      drivespan unit GQ-02 --db {db} --as-of {res.as_of.isoformat()}")
+    click.echo(f"      drivespan calibrate --db {db}")
     if no_dashboard:
         return
     from dashboards import launch

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from monitor.domain.notices import ESTIMATE_NOTICE  # noqa: F401 - re-exported
+from monitor.domain.vocabulary import LIMIT_REACHED, NEW_LIFE
 from monitor.fleet.params import (
     FLAG_FEW,
     FLAG_OFF_REFERENCE,
@@ -199,23 +200,22 @@ def _few_text(r: Mapping, params: StatusParams) -> str:
 def _sentence(r: Mapping, params: StatusParams) -> str:
     name = f"{r['position']} ({r['component_model']})"
     if r["limiting"] is None:
-        text = f"{name}: no estimate (no recent operation and no wear trend)"
+        if not r["hours_since_rebuild"]:
+            return f"{name}: {NEW_LIFE} (no operating hours logged since the last rebuild)."
+        return f"{name}: no estimate (no recent operation and no wear trend)."
+    why = "bearing fatigue" if r["limiting"] == "bearing" else "case-drain wear reaching its limit"
+    left = LIMIT_REACHED if r["remaining_h"] <= 0 else f"about {r['remaining_h']:,.0f} h left"
+    text = (
+        f"{name}: {left}, limited by {why}; "
+        f"{100 * r['consumed_fraction']:.0f} % of bearing life used since the last "
+        f"rebuild at {params.reliability_pct:g} % reliability"
+    )
+    if r["due_date"] is not None:
+        text += (
+            f"; due around {r['due_date'].isoformat()} at {r['utilisation_h_per_day']:.1f} h/day"
+        )
     else:
-        why = (
-            "bearing fatigue"
-            if r["limiting"] == "bearing"
-            else "case-drain wear reaching its limit"
-        )
-        text = (
-            f"{name}: about {r['remaining_h']:,.0f} h left, limited by {why}; "
-            f"{100 * r['consumed_fraction']:.0f} % of bearing life used since the last "
-            f"rebuild at {params.reliability_pct:g} % reliability"
-        )
-        if r["due_date"] is not None:
-            text += (
-                f"; due around {r['due_date'].isoformat()} at "
-                f"{r['utilisation_h_per_day']:.1f} h/day"
-            )
+        text += f"; no due date: no operating hours in the last {params.utilisation_days:g} days"
     return text + "."
 
 

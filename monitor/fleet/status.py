@@ -149,7 +149,12 @@ def _objects(values: list) -> pd.Series:
 
 
 def fleet_status(
-    inputs: pd.DataFrame, readings: pd.DataFrame, as_of: date, params: StatusParams
+    inputs: pd.DataFrame,
+    readings: pd.DataFrame,
+    as_of: date,
+    params: StatusParams,
+    *,
+    at: datetime | None = None,
 ) -> pd.DataFrame:
     """Status of every component at the start of ``as_of``, most urgent first.
 
@@ -164,6 +169,9 @@ def fleet_status(
         The as-of day.
     params : StatusParams
         Settings.
+    at : datetime.datetime, optional
+        The instant the data were read at [UTC] (data age counts from it); default the
+        start of ``as_of``.
 
     Returns
     -------
@@ -180,7 +188,9 @@ def fleet_status(
     stamps[last.isna().to_numpy()] = None
     extra = {
         "last_upload_at": _objects(list(stamps)),
-        "data_age_days": (pd.Timestamp(as_of_instant(as_of)) - last).dt.total_seconds().to_numpy()
+        "data_age_days": (pd.Timestamp(at or as_of_instant(as_of)) - last)
+        .dt.total_seconds()
+        .to_numpy()
         / 86400.0,
         "has_cutoff": inputs["m_cutoff_bar"].notna().to_numpy(),
     }

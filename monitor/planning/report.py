@@ -7,8 +7,9 @@ that cannot be placed by date, the weekly capacity and exchange-stock use, and t
 headline lines of :func:`plan_summary`.
 
 Lateness follows the rules of :mod:`monitor.planning`: ``late_weeks`` counts weeks
-after the due week (week ``k`` starts on ``as_of + 7 k`` days); ``late_days`` counts
-days from the due date to the start of the planned week.
+after the due week (week 0 is the ISO 8601 week of the as-of date, week ``k`` starts on
+its Monday + 7 k days); ``late_days`` counts days from the due date to the start of the
+planned week (or the as-of date, if later).
 """
 
 from __future__ import annotations
@@ -48,8 +49,8 @@ def lateness(
     """Weeks after the due week [weeks] and days after the due date [d] of ``week``."""
     if due is None:
         return 0, 0
-    due_week = max(0, int(due_days // 7))
-    late_days = max(0, (settings.week_start(week) - due).days)
+    due_week = settings.week_of(due_days)
+    late_days = max(0, (max(settings.week_start(week), settings.as_of) - due).days)
     return max(0, week - due_week), late_days
 
 
@@ -59,7 +60,7 @@ def member_reason(rows: Sequence, d: Downtime, i: int, how: str, s: PlanSettings
     others = [rows[j].position for j in d.members if j != i]
     due = "no due date" if row.due_date is None else f"due {row.due_date.isoformat()}"
     if i == d.members[0]:
-        text = f"{row.position}: {due} (week {d.due_week}); {how}."
+        text = f"{row.position}: {due}, in week {s.week_label(d.due_week)}; {how}."
         if row.due_days < 0:
             text = f"{row.position}: already past its due date {row.due_date} on the as-of date; "
             text += f"{how}."
@@ -94,7 +95,7 @@ def assignment_rows(
     for i in d.members:
         row = rows[i]
         late_weeks, late_days = lateness(row.due_date, row.due_days, week, s)
-        own_due_week = pd.NA if math.isnan(row.due_days) else max(0, int(row.due_days // 7))
+        own_due_week = pd.NA if math.isnan(row.due_days) else s.week_of(row.due_days)
         out.append(
             {
                 "downtime": number,
@@ -189,6 +190,8 @@ def _assignments_frame(planned: list[dict]) -> pd.DataFrame:
     frame = pd.DataFrame(planned, columns=list(ASSIGNMENT_COLUMNS))
     frame = frame.sort_values(["week", "downtime", "position"], kind="stable")
     frame = frame.reset_index(drop=True)
+    order = {d: n for n, d in enumerate(dict.fromkeys(frame["downtime"]), start=1)}
+    frame["downtime"] = frame["downtime"].map(order)  # numbered in the order they are shown
     for col in ("downtime", "week", "late_weeks", "late_days"):
         frame[col] = frame[col].astype("int64")
     frame["due_week"] = frame["due_week"].astype("Int64")
@@ -214,7 +217,7 @@ def build_plan(
     assignments = _assignments_frame(planned)
     late = assignments.loc[assignments["late_days"] > 0, list(LATE_COLUMNS)]
     grouped = {i for d in downtimes for i in d.members}
-    beyond = comp.index[(comp["due_days"] >= 7 * s.horizon_weeks) & ~comp.index.isin(grouped)]
+    beyond = comp.index[(comp["due_days"] >= s.horizon_days) & ~comp.index.isin(grouped)]
     return Plan(
         settings=s,
         assignments=assignments,
@@ -227,22 +230,46 @@ def build_plan(
     )
 
 
+NO_ROOM = "no room in the horizon"
+NO_DATE = "cannot be placed by date"
+NOT_PLACED_COLUMNS = (*ID_COLUMNS, "due_date", "remaining_h", "not_placed", "reason")
+"""Columns of :func:`not_placed_frame`; ``not_placed`` is :data:`NO_ROOM` or :data:`NO_DATE`."""
+
+
+def not_placed_frame(plan: Plan) -> pd.DataFrame:
+    """Every drive the plan could not place, with why: first those due within the horizon
+    with no week that has room, then those without a due date (:data:`NOT_PLACED_COLUMNS`)."""
+    parts = [
+        plan.unplanned.assign(not_placed=NO_ROOM),
+        plan.unscheduled.assign(not_placed=NO_DATE, due_date=None),
+    ]
+    parts = [p.reindex(columns=list(NOT_PLACED_COLUMNS)) for p in parts if len(p)]
+    if not parts:
+        return pd.DataFrame(columns=list(NOT_PLACED_COLUMNS))
+    return pd.concat(parts, ignore_index=True)
+
+
+def _count(n: int, one: str, many: str | None = None) -> str:
+    return f"{n} {one if n == 1 else (many or one + 's')}"
+
+
 def plan_summary(plan: Plan) -> list[str]:
     """Plain-words headline lines for a plan, ending with :data:`ESTIMATE_NOTICE`."""
     s, a = plan.settings, plan.assignments
     lines = [
-        f"Rebuild plan from {s.as_of.isoformat()} for {s.horizon_weeks} week(s), "
-        f"{s.capacity_per_week} rebuild slot(s) per week fleet-wide.",
-        f"{len(a)} rebuild(s) in {a['downtime'].nunique()} downtime(s) planned; "
-        f"{len(plan.late)} late (largest {plan.max_late_days} days); "
-        f"{len(plan.unplanned)} unplanned for lack of room.",
+        f"Rebuild plan from {s.as_of.isoformat()} for {_count(s.horizon_weeks, 'week')} "
+        f"(weeks {s.week_label(0)} to {s.week_label(s.horizon_weeks - 1)}), "
+        f"{_count(s.capacity_per_week, 'rebuild slot')} per week fleet-wide.",
+        f"{_count(len(a), 'rebuild')} in {_count(a['downtime'].nunique(), 'downtime')} "
+        f"planned; {len(plan.late)} late (largest {_count(plan.max_late_days, 'day')}); "
+        f"{_count(len(plan.unplanned), 'drive')} not placed for lack of room.",
     ]
     if len(plan.unscheduled):
         lines.append(
-            f"{len(plan.unscheduled)} component(s) cannot be placed by date "
-            "(no utilisation or no estimate)."
+            f"{_count(len(plan.unscheduled), 'drive')} cannot be placed by date "
+            "(no recent operation or no estimate)."
         )
     if plan.beyond_horizon:
-        lines.append(f"{plan.beyond_horizon} component(s) fall due after the horizon.")
+        lines.append(f"{_count(plan.beyond_horizon, 'drive')} fall due after the horizon.")
     lines.append(ESTIMATE_NOTICE)
     return lines

@@ -7,9 +7,10 @@ the components that end up late, unplanned or unschedulable.
 
 Rules, in plain words
 ---------------------
-- Weeks are counted from the as-of date: week ``k`` starts on ``as_of + 7 k`` days.
-- A component is due within the horizon when its due date falls before
-  ``as_of + 7 * horizon_weeks``; a component with ``remaining_h <= 0`` is due now.
+- Weeks are calendar weeks (ISO 8601, Monday to Sunday): week 0 is the week of the
+  as-of date, week ``k`` starts on its Monday + 7 k days.
+- A component is due within the horizon when its due date falls before the Monday
+  that ends the horizon; a component with ``remaining_h <= 0`` is due now.
 - Pairing: when another component of the same unit has remaining hours within
   ``pair_within_h`` of the earliest-due one, both share one downtime; the downtime
   uses one rebuild slot and one exchange unit per component, all in the same week.
@@ -48,9 +49,13 @@ import numpy as np
 import pandas as pd
 
 from monitor.planning.report import (
+    NO_DATE,
+    NO_ROOM,
+    NOT_PLACED_COLUMNS,
     assignment_rows,
     build_plan,
     capacity_frame,
+    not_placed_frame,
     plan_summary,
     stock_frame,
     unplanned_rows,
@@ -87,6 +92,10 @@ __all__ = [
     "make_settings",
     "plan_rebuilds",
     "plan_summary",
+    "not_placed_frame",
+    "NOT_PLACED_COLUMNS",
+    "NO_ROOM",
+    "NO_DATE",
 ]
 
 
@@ -233,21 +242,21 @@ def _sort_key(rows: list, i: int) -> tuple:
     return (due, rem, row.unit, row.position)
 
 
-def _downtime(rows: list, members: list[int], note: str = "") -> Downtime:
+def _downtime(rows: list, members: list[int], settings: PlanSettings, note: str = "") -> Downtime:
     anchor = rows[members[0]]
     return Downtime(
         members=members,
         site=anchor.site,
         models=Counter(rows[i].component_model for i in members),
         key=_sort_key(rows, members[0]),
-        due_week=max(0, int(anchor.due_days // 7)),
+        due_week=settings.week_of(anchor.due_days),
         note=note,
     )
 
 
 def _unit_downtimes(rows: list, unit_rows: list[int], settings: PlanSettings) -> list[list]:
     """Group the due components of one unit into downtimes (anchor first)."""
-    end_days = 7 * settings.horizon_weeks
+    end_days = settings.horizon_days
     unit_rows = sorted(unit_rows, key=lambda i: _sort_key(rows, i))
     taken: set[int] = set()
     groups = []
@@ -274,7 +283,7 @@ def _room(settings: PlanSettings, site: str) -> int:
 
 def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings) -> list[Downtime]:
     """Keep a group as one downtime unless no single week could ever hold it."""
-    group = _downtime(rows, members)
+    group = _downtime(rows, members, settings)
     room = _room(settings, group.site)
     short = [m for m, n in group.models.items() if n > settings.exchange_stock.get(m, math.inf)]
     if len(members) == 1 or room == 0 or (len(members) <= room and not short):
@@ -285,9 +294,9 @@ def _split_if_never_fits(rows: list, members: list[int], settings: PlanSettings)
         else f"one week has room for only {room} rebuild(s)"
     )
     note = f"Not combined with the other loop(s) of the unit: {why} for one joint downtime."
-    end_days = 7 * settings.horizon_weeks
+    end_days = settings.horizon_days
     due = [i for i in members if rows[i].due_days < end_days]  # NaN compares False
-    return [_downtime(rows, [i], note) for i in due]
+    return [_downtime(rows, [i], settings, note) for i in due]
 
 
 def _downtimes(rows: list, settings: PlanSettings) -> list[Downtime]:
@@ -356,12 +365,18 @@ def _choose_week(shop: _Shop, d: Downtime) -> tuple[int | None, str]:
             if week == d.due_week:
                 return week, "planned in its due week"
             why = "; ".join(shop.blockers(d, d.due_week))
-            return week, f"brought forward to week {week} because week {d.due_week} is full ({why})"
+            label, due = shop.settings.week_label(week), shop.settings.week_label(d.due_week)
+            return week, f"brought forward to week {label} because week {due} is full ({why})"
     why = "; ".join(shop.blockers(d, d.due_week))
     for week in range(d.due_week + 1, h):
         if not shop.blockers(d, week):
-            span = "week 0" if d.due_week == 0 else f"weeks 0-{d.due_week}"
-            return week, f"no room in {span} ({why}); earliest week with room is week {week}"
+            s = shop.settings
+            span = (
+                f"week {s.week_label(0)}"
+                if d.due_week == 0
+                else (f"weeks {s.week_label(0)} to {s.week_label(d.due_week)}")
+            )
+            return week, f"no room in {span} ({why}); earliest week with room: {s.week_label(week)}"
     reasons = sorted({b for w in range(h) for b in shop.blockers(d, w)})
     return None, f"no week of the {h}-week horizon has room ({'; '.join(reasons)})"
 

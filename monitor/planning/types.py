@@ -17,13 +17,7 @@ from types import MappingProxyType
 
 import pandas as pd
 
-ESTIMATE_NOTICE = (
-    "All dates and hours in this plan are estimates from logged loads and wear trends. "
-    "The maker's service limits, local codes and qualified technicians decide when a "
-    "pump or motor is rebuilt. Pressurised hydraulic systems are dangerous: only "
-    "trained people should work on them, after isolating and relieving all pressure."
-)
-"""Plain-words notice every user-facing view or export of a plan must carry."""
+from monitor.domain.notices import ESTIMATE_NOTICE  # noqa: F401 - every plan view carries it
 
 ALL_SITES = "(all sites)"
 """Value of ``site`` in the fleet-wide rows of :attr:`Plan.capacity`."""
@@ -60,7 +54,7 @@ class PlanSettings:
     Attributes
     ----------
     as_of : datetime.date
-        First day of week 0.
+        The as-of date; week 0 is its ISO 8601 week (Monday to Sunday).
     horizon_weeks : int
         Number of weeks planned [weeks].
     capacity_per_week : int
@@ -85,14 +79,38 @@ class PlanSettings:
     turnaround_days: Mapping[str, float] = field(default_factory=lambda: MappingProxyType({}))
     pair_within_h: float | None = 500.0
 
+    @property
+    def first_monday(self) -> date:
+        """Monday of the week holding the as-of date: the first day of week 0."""
+        return self.as_of - timedelta(days=self.as_of.weekday())
+
     def week_start(self, week: int) -> date:
-        """First day of ``week`` (week 0 starts on the as-of date)."""
-        return self.as_of + timedelta(days=7 * int(week))
+        """Monday that starts ``week`` (week 0 is the ISO 8601 week of the as-of date)."""
+        return self.first_monday + timedelta(days=7 * int(week))
+
+    def week_of(self, days_from_as_of: float) -> int:
+        """The week [-] holding the day ``days_from_as_of`` [d] after the as-of date (>= 0)."""
+        return max(0, int((days_from_as_of + self.as_of.weekday()) // 7))
+
+    def week_label(self, week: int) -> str:
+        """A week as a person reads it: its Monday's date and ISO 8601 week number."""
+        return week_label(self.week_start(week))
 
     @property
     def horizon_end(self) -> date:
-        """First day after the horizon."""
+        """First day after the horizon (a Monday)."""
         return self.week_start(self.horizon_weeks)
+
+    @property
+    def horizon_days(self) -> float:
+        """Days from the as-of date to the end of the horizon [d]."""
+        return float((self.horizon_end - self.as_of).days)
+
+
+def week_label(monday: date) -> str:
+    """``"2026-W49 (Mon 2026-11-30)"``: a week's ISO 8601 number and its Monday's date."""
+    year, week, _ = monday.isocalendar()
+    return f"{year}-W{week:02d} (Mon {monday.isoformat()})"
 
 
 @dataclass(frozen=True)

@@ -36,7 +36,7 @@ from sqlalchemy import (
     exc,
     text,
 )
-from sqlalchemy.engine import Connection
+from sqlalchemy.engine import Connection, make_url
 
 from monitor.domain.config import DEFAULT_URL, ENV_URL
 
@@ -295,6 +295,78 @@ def resolve_url(url: str | None = None) -> str:
     if "://" not in url:
         url = f"sqlite:///{Path(url).expanduser().resolve()}"
     return url
+
+
+SUPPORTED_SCHEMES = ("sqlite", "postgresql", "postgres")
+"""URL schemes (before any ``+driver``) a store may use."""
+
+
+class StoreUnavailable(Exception):
+    """The store named by a URL cannot be opened; the message says why and what to do."""
+
+
+def display_url(url: str) -> str:
+    """The URL as it may be shown to a person: any password hidden."""
+    try:
+        return make_url(url).render_as_string(hide_password=True)
+    except Exception:  # noqa: BLE001 - an unparsable URL is shown without its credentials
+        return url.split("://", 1)[0] + "://…" if "@" in url else url
+
+
+def sqlite_file(url: str) -> Path | None:
+    """The file of a SQLite URL (None for other databases and in-memory SQLite)."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() != "sqlite" or parsed.database in (None, "", ":memory:"):
+        return None
+    return Path(parsed.database)
+
+
+def check_url(url: str | None, *, create: bool) -> str:
+    """The resolved URL, or :class:`StoreUnavailable` when it cannot name a store:
+    an unparsable URL, an unsupported database, a SQLite file whose folder is missing,
+    or (``create`` False) a SQLite file that does not exist yet."""
+    url = resolve_url(url)
+    try:
+        parsed = make_url(url)
+    except Exception:  # noqa: BLE001 - sqlalchemy raises ArgumentError or ValueError
+        raise StoreUnavailable(
+            f"--db {display_url(url)!r} is not a database URL: write sqlite:///FILE "
+            "(or a plain file path) or postgresql://user@host/dbname"
+        ) from None
+    scheme = parsed.drivername.split("+", 1)[0]
+    if scheme not in SUPPORTED_SCHEMES:
+        raise StoreUnavailable(
+            f"database {scheme!r} is not supported: drivespan stores its data in SQLite "
+            "(sqlite:///FILE or a plain file path) or PostgreSQL (postgresql://user@host/dbname)"
+        )
+    path = sqlite_file(url)
+    if path is not None:
+        if not path.parent.is_dir():
+            raise StoreUnavailable(
+                f"folder {path.parent} does not exist: create it first or name another --db"
+            )
+        if path.exists() and not path.is_file():
+            raise StoreUnavailable(f"{path} is a folder, not a database file: name a file")
+        if not create and not path.exists():
+            raise StoreUnavailable(f"no drivespan store at {path}")
+    return url
+
+
+def open_store(url: str | None = None, *, create: bool = True) -> Engine:
+    """An engine on an upgraded store at ``url`` (see :func:`check_url`); a store that
+    cannot be reached or is not a database raises :class:`StoreUnavailable`."""
+    url = check_url(url, create=create)
+    engine = make_engine(url)
+    try:
+        upgrade(engine)
+    except exc.DBAPIError as err:
+        engine.dispose()
+        first = str(getattr(err, "orig", err)).strip().splitlines()[0:1] or ["unknown error"]
+        path = sqlite_file(url)
+        if path is not None and "not a database" in first[0]:
+            raise StoreUnavailable(f"{path} is not a drivespan (SQLite) database file") from None
+        raise StoreUnavailable(f"cannot open the store {display_url(url)}: {first[0]}") from None
+    return engine
 
 
 SQLITE_BUSY_TIMEOUT_MS = 30_000

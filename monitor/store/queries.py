@@ -321,3 +321,17 @@ def service_event_exists(
 def insert_service_event(conn: Connection, **values: object) -> None:
     """Insert one service-event row."""
     conn.execute(db.service_event.insert().values(**values))
+
+
+def last_upload_before(conn: Connection, unit_id: int, at: datetime) -> tuple | None:
+    """(end of period [UTC], hour meter at its end [h]) of the unit's latest upload that
+    ends at or before ``at``, or None."""
+    u = db.upload
+    q = (
+        select(u.c.period_end, u.c.hour_meter_end)
+        .where(u.c.unit_id == unit_id, u.c.period_end <= at)
+        .order_by(u.c.period_end.desc())
+        .limit(1)
+    )
+    row = conn.execute(q).first()
+    return None if row is None else (_utc(row[0]), float(row[1]))

@@ -15,11 +15,7 @@ def display_url(url: str | None) -> str:
     ``url`` is resolved as :func:`monitor.store.db.resolve_url` does (the argument,
     ``$DRIVESPAN_DB``, the default file; a plain path is a SQLite file).
     """
-    resolved = db.resolve_url(url)
-    try:
-        return make_url(resolved).render_as_string(hide_password=True)
-    except Exception:  # noqa: BLE001 - not a URL SQLAlchemy can read: show none of it
-        return resolved.split("://", 1)[0] + "://(unreadable URL)"
+    return db.display_url(db.resolve_url(url))
 
 
 def sqlite_path(url: str | None) -> Path | None:

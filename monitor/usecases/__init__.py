@@ -54,6 +54,7 @@ _WHERE = {
     "plain_records": "status",
     "plain_value": "status",
     "rank_records": "status",
+    "status_instant": "status",
     "unit_report": "status",
     "backup_store": "maintenance",
     "display_url": "maintenance",

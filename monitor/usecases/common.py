@@ -11,9 +11,11 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
+from pathlib import Path
 
 from monitor.domain.errors import DomainError  # noqa: F401 - part of this module's interface
 from monitor.domain.records import Problem
+from monitor.domain.vocabulary import plural
 from monitor.store import db
 from monitor.store.db import Engine
 
@@ -35,22 +37,43 @@ class FileResult:
     @property
     def summary(self) -> str:
         if self.status == REJECTED:
-            return f"{self.name}: rejected, {len(self.problems)} problem(s)"
+            return f"{self.name}: rejected, {plural(len(self.problems), 'problem')}"
         if self.status == DUPLICATE:
             return f"{self.name}: duplicate of a file already stored, skipped"
         if self.kind == "registry":
             return f"{self.name}: registry {self.status}"
         verb = "valid" if self.status == VALID else "accepted"
         extra = f", {self.skipped} already stored" if self.skipped else ""
-        counts = f"{self.histograms} histogram(s), {self.readings} reading(s)"
+        counts = f"{plural(self.histograms, 'histogram')}, {plural(self.readings, 'reading')}"
         return f"{self.name}: {verb}, {counts}{extra}"
 
 
-def init_db(url: str | None = None) -> Engine:
-    """Create or upgrade the schema at ``url`` and return an engine for it."""
-    engine = db.make_engine(url)
-    db.upgrade(engine)
-    return engine
+def init_db(url: str | None = None, *, create: bool = True) -> Engine:
+    """Create or upgrade the schema at ``url`` and return an engine for it.
+
+    With ``create`` False a SQLite file that does not exist is refused (a mistyped
+    ``--db`` must not make a new, empty store). A URL that names no usable store raises
+    :class:`DomainError` saying what is wrong and what to do.
+    """
+    try:
+        return db.open_store(url, create=create)
+    except db.StoreUnavailable as err:
+        raise DomainError(_with_hint(str(err), url)) from None
+
+
+DEMO_STORE = "drivespan-demo/demo.db"
+"""Where ``drivespan demo`` puts its store by default (relative to the working folder)."""
+
+
+def _with_hint(message: str, url: str | None) -> str:
+    """A missing-store message with what to do: create it, or use the demo's store."""
+    if not message.startswith("no drivespan store"):
+        return message
+    shown = url or "sqlite:///drivespan.db"
+    hint = f": create it with drivespan init --db {shown}, or name an existing one with --db"
+    if Path(DEMO_STORE).is_file():
+        hint += f" (the demo's store is {DEMO_STORE}: --db {DEMO_STORE})"
+    return message + hint
 
 
 @contextmanager

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
+from datetime import UTC, datetime, timedelta
 
 from monitor.domain.vocabulary import SERVICE_REASONS
 from monitor.ingest.limits import EARLIEST_TIME, LATEST_TIME, MAX_HOUR_METER_H, TIME_RANGE_TEXT
@@ -12,6 +12,12 @@ from monitor.usecases.common import DomainError, locked_transaction
 from monitor.usecases.status import _unknown_unit
 
 SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
+
+FUTURE_TOLERANCE = timedelta(minutes=10)
+"""How far past the clock an event time may lie (clock differences) [min]."""
+METER_SLACK_H = 1.0
+"""Hours an hour meter may read above the most it could have run since the last upload [h]
+(rounding of the readings; common practice, no source)."""
 
 
 def add_service_event(
@@ -43,6 +49,7 @@ def add_service_event(
         comp_id = None
         if position is not None:
             comp_id = _component_id(conn, unit, tag, position)
+        _check_meter(conn, unit, tag, event["at"], hour_meter)
         if queries.service_event_exists(conn, unit, kind, event["at"], comp_id):
             raise DomainError(
                 f"a {kind} of {tag} {position or ''} at "
@@ -60,6 +67,23 @@ def add_service_event(
             reason=reason,
         )
     return {"unit": tag, "position": position, "note": note, "reason": reason, **event}
+
+
+def _check_meter(conn, unit: int, tag: str, at: datetime, hour_meter: float) -> None:  # noqa: ANN001
+    """Refuse an hour meter the unit cannot have reached by ``at``: more than 24 h per
+    calendar day after its last upload before the event."""
+    last = queries.last_upload_before(conn, unit, at)
+    if last is None:
+        return
+    end, meter = last
+    most = meter + 24.0 * (at - end).total_seconds() / 86400.0 + METER_SLACK_H
+    if hour_meter > most:
+        raise DomainError(
+            f"hour meter {hour_meter:,.1f} h is beyond what {tag} can have run by "
+            f"{at:%Y-%m-%d %H:%M} UTC: its last upload ended at {meter:,.1f} h on "
+            f"{end:%Y-%m-%d}, so the meter reads at most {most:,.1f} h; check --hour-meter "
+            "and --at"
+        )
 
 
 def _check_reason(kind: str, reason: str | None) -> None:
@@ -86,6 +110,13 @@ def _checked_event(tag, kind, at, hour_meter, position, new_hour_meter) -> dict:
             raise DomainError(
                 f"{name} must be a reading from 0 to {MAX_HOUR_METER_H:.0f} h, got {h!r}"
             )
+    if at.tzinfo is not None and at.astimezone(UTC) > datetime.now(UTC) + FUTURE_TOLERANCE:
+        raise DomainError(
+            f"the service time {at.isoformat()} is in the future: record an event once it "
+            "has happened (give --at as an ISO 8601 time with offset)"
+        )
+    if not (hour_meter >= 0) or hour_meter == float("inf"):
+        raise DomainError(f"hour meter must be a reading >= 0 h, got {hour_meter!r}")
     if kind == "hour_meter_change":
         if position is not None:
             raise DomainError("an hour_meter_change is of the whole unit: leave out --position")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 
 from monitor.domain.records import Problem
+from monitor.domain.vocabulary import plural
 from monitor.ingest import registry
 from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, queries
@@ -16,15 +17,11 @@ REGISTRY_SUFFIXES = (".yaml", ".yml")
 
 def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.UpsertCounts:
     """Import a fleet registry file (idempotent upsert); raise DomainError if it is bad."""
-    try:
-        text = data.decode("utf-8-sig") if isinstance(data, bytes) else data
-    except UnicodeDecodeError:
-        msg = "file is not UTF-8 text: save the registry as UTF-8 and import it again"
-        problem = Problem(name, None, None, None, msg)
-        raise DomainError(f"{name}: registry rejected", (problem,)) from None
+    text = _registry_text(data, name)
     reg, problems = registry.load_registry(text, name)
     if problems or reg is None:
-        raise DomainError(f"{name}: registry rejected, {len(problems)} problem(s)", problems)
+        what = plural(len(problems), "problem")
+        raise DomainError(f"{name}: registry rejected, {what}", problems)
     sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
     with locked_transaction(engine) as conn:
         counts = queries.upsert_registry(conn, reg)
@@ -32,6 +29,20 @@ def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.Ups
         if counts.created or counts.updated:
             ledger_rows.recompute(conn, batch_metrics)  # ratings or rebuild dates may have changed
     return counts
+
+
+def _registry_text(data: bytes | str, name: str) -> str:
+    if isinstance(data, str):
+        return data
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        msg = (
+            f"{name} is not a text file (binary content, e.g. a spreadsheet, or not UTF-8): "
+            "a fleet registry is a YAML text file in UTF-8, e.g. demo_fleet/sample/registry.yaml"
+        )
+        problem = Problem(name, None, None, None, msg)
+        raise DomainError(f"{name}: registry rejected", (problem,)) from None
 
 
 def show_registry(engine: Engine) -> str | None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import difflib
 import json
 from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import UTC, date, datetime, timedelta
 
 import pandas as pd
 
@@ -15,7 +15,7 @@ from monitor.fleet.status import plain_value
 from monitor.store import queries, status_reads
 from monitor.store import traces as trace_rows
 from monitor.store.db import Engine
-from monitor.usecases.common import DomainError, _today
+from monitor.usecases.common import DomainError
 from monitor.usecases.settings import _params_for
 
 
@@ -27,14 +27,13 @@ def fleet_status(
     rate_window_h: float | None = None,
     site: str | None = None,
 ) -> pd.DataFrame:
-    """Status of every component at the start of ``as_of`` (default today), most urgent first.
+    """Status of every component at the start of ``as_of`` (default: now), most urgent first.
 
     Columns: :data:`monitor.fleet.STATUS_COLUMNS`. An empty store gives an empty frame.
     Raises DomainError for an unknown site or a setting out of range.
     """
     params = _params_for(engine, reliability_pct, rate_window_h)
-    as_of = as_of or _today()
-    t = fleet.as_of_instant(as_of)
+    as_of, t = status_instant(as_of)
     with engine.connect() as conn:
         if site is not None:
             _check_site(conn, site)
@@ -47,7 +46,16 @@ def fleet_status(
         )
         ids = inputs["component_id"].tolist() if site is not None else None
         readings = status_reads.readings_in_life(conn, t, ids)
-    return fleet.fleet_status(inputs, readings, as_of, params)
+    return fleet.fleet_status(inputs, readings, as_of, params, at=t)
+
+
+def status_instant(as_of: date | None = None) -> tuple[date, datetime]:
+    """The day and the instant [UTC] a status is taken at: the start of ``as_of``, or
+    without one now (so that data and service events of today count)."""
+    if as_of is None:
+        now = datetime.now(UTC)
+        return now.date(), now
+    return as_of, fleet.as_of_instant(as_of)
 
 
 def _check_site(conn, site: str) -> None:  # noqa: ANN001
@@ -115,10 +123,9 @@ def unit_report(
     reliability_pct: float | None = None,
     rate_window_h: float | None = None,
 ) -> UnitReport:
-    """Status and detail of one unit at the start of ``as_of`` (default today)."""
+    """Status and detail of one unit at the start of ``as_of`` (default: now)."""
     params = _params_for(engine, reliability_pct, rate_window_h)
-    as_of = as_of or _today()
-    t = fleet.as_of_instant(as_of)
+    as_of, t = status_instant(as_of)
     with engine.connect() as conn:
         unit = status_reads.unit_row(conn, tag)
         if unit is None:
@@ -131,7 +138,7 @@ def unit_report(
             unit_tag=tag,
         )
         readings = status_reads.readings_in_life(conn, t, inputs["component_id"].tolist())
-        status = fleet.fleet_status(inputs, readings, as_of, params)
+        status = fleet.fleet_status(inputs, readings, as_of, params, at=t)
         stored = trace_rows.unit_summaries(conn, unit["id"])
         docs = [json.loads(text) for text in stored["summary"]]
         by_component: dict[int, list] = {}
