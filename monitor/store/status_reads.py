@@ -493,4 +493,5 @@ def histogram_from_row(r) -> Histogram:  # noqa: ANN001 - a row mapping
         speed_low_rpm=s_lo,
         speed_high_rpm=s_hi,
         mean_speed_rpm=r["mean_speed_rpm"],
+        oil_temp_c=r.get("oil_temp_c"),
     )

@@ -17,7 +17,6 @@ from pathlib import Path
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
 from monitor.ingest import parse, registry
-from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import checks, db, ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import (
@@ -30,6 +29,7 @@ from monitor.usecases.common import (
     locked_transaction,
 )
 from monitor.usecases.registry import REGISTRY_SUFFIXES, import_registry
+from monitor.usecases.settings import ledger_compute, mark_ledger_current
 
 TELEMETRY_SUFFIXES = (".csv", ".json", ".txt")
 WRITE_ATTEMPTS = 2
@@ -87,7 +87,7 @@ def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> F
         file_id = queries.insert_file(
             conn, parsed.content_sha256, name, plan.n_histograms, len(plan.readings)
         )
-        ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
+        ledger_rows.write_upload(conn, file_id, plan, ledger_compute(conn))
     return result
 
 
@@ -202,4 +202,6 @@ def recompute(engine: Engine, progress: Callable[[int, int], None] | None = None
 
     Holds the store's write lock, so no upload is stored meanwhile."""
     with locked_transaction(engine) as conn:
-        return ledger_rows.recompute(conn, batch_metrics, progress=progress)
+        n = ledger_rows.recompute(conn, ledger_compute(conn), progress=progress)
+        mark_ledger_current(conn)
+        return n
