@@ -17,6 +17,7 @@ from monitor.cli.common import (
     _frame_records,
     _notice,
     _print_results,
+    _stale_warning,
     _table_rows,
     db_option,
     domain_errors,
@@ -162,6 +163,7 @@ def rank_cmd(
         )
     df = usecases.fleet_status(engine, day, reliability_pct=reliability, site=site)
     records = usecases.rank_records(df)
+    _stale_warning(engine)
     if fmt == "json":
         emit(records, fmt)
         return
@@ -192,6 +194,8 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
     engine = usecases.init_db(db_url)
     rep = usecases.unit_report(engine, tag, _as_of(as_of))
     status = usecases.rank_records(rep.status)
+    assumptions = _frame_records(rep.assumptions)
+    _stale_warning(engine)
     readings = {pos: _frame_records(d.case_drain) for pos, d in rep.components.items()}
     if fmt == "json":
         click.echo(
@@ -203,6 +207,7 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
                     "case_drain_readings": readings,
                     "service_history": _frame_records(rep.service_history),
                     "traces": _frame_records(rep.traces),
+                    "assumptions": assumptions,
                     "summary": rep.summary,
                 },
                 indent=2,
@@ -224,6 +229,8 @@ def unit_cmd(tag: str, as_of: str | None, fmt: str, db_url: str) -> None:
         cols = ["taken_at", "hour_meter", "case_drain_lpm", "normalised_lpm", "used"]
         emit(rows, "table", [*cols, "off_reference"])
     _echo_traces(rep.traces)
+    click.echo("\nmodel assumptions used (docs/life-model.md):")
+    emit(assumptions, "table", list(rep.assumptions.columns))
     click.echo("")
     for line in rep.summary:
         click.echo(line)

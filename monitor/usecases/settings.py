@@ -24,6 +24,7 @@ DEFAULT_SETTINGS: dict = {
     "case_drain_dp_ratio_min": 0.5,
     "case_drain_dp_ratio_max": 2.0,
     "band_pressure": "midpoint",
+    "life_before_data_h": 50.0,
 }
 """Settings used where none are stored (``save_settings`` stores overrides)."""
 
@@ -107,13 +108,16 @@ def ledger_stale(engine: Engine) -> bool:
         return bool(queries.get_settings(conn).get(STALE_KEY, False))
 
 
+def ledger_band_pressure(conn) -> str:  # noqa: ANN001 - a Connection
+    """The band pressure rule in force (stored setting, else the default)."""
+    return queries.get_settings(conn).get("band_pressure", DEFAULT_SETTINGS["band_pressure"])
+
+
 def ledger_compute(conn) -> partial:  # noqa: ANN001 - a Connection
     """The ledger's compute function with the stored settings it depends on bound."""
     from monitor.ledger.batch_metrics import batch_metrics
 
-    stored = queries.get_settings(conn)
-    rule = stored.get("band_pressure", DEFAULT_SETTINGS["band_pressure"])
-    return partial(batch_metrics, band_pressure=rule)
+    return partial(batch_metrics, band_pressure=ledger_band_pressure(conn))
 
 
 def mark_ledger_current(conn) -> None:  # noqa: ANN001 - a Connection
@@ -177,6 +181,7 @@ def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
         case_drain_step_factor=step,
         heavy_relief_fraction=frac,
         min_wear_readings=n,
+        life_before_data_h=_positive(settings, "life_before_data_h", "an hour meter reading"),
     )
 
 

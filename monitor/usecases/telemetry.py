@@ -14,9 +14,12 @@ import logging
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
+import numpy as np
+
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
 from monitor.ingest import parse, registry
+from monitor.ledger.batch_metrics import oil_temp_problems
 from monitor.store import checks, db, ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import (
@@ -74,6 +77,8 @@ def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> F
     if queries.file_stored(conn, parsed.content_sha256):
         return FileResult(name, DUPLICATE)
     plan = checks.plan_upload(conn, parsed)
+    if not plan.problems:
+        plan.problems.extend(_oil_temp_problems(conn, plan, name))
     if plan.problems:
         return FileResult(name, REJECTED, problems=tuple(plan.problems))
     result = FileResult(
@@ -89,6 +94,16 @@ def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> F
         )
         ledger_rows.write_upload(conn, file_id, plan, ledger_compute(conn))
     return result
+
+
+def _oil_temp_problems(conn, plan, name: str) -> list[Problem]:  # noqa: ANN001
+    """Upload oil temperatures outside the sensible range of each drive's oil."""
+    temps = plan.batch.oil_temp_c
+    if not np.isfinite(temps).any():
+        return []
+    table = ledger_rows.component_table(conn, sorted({int(c) for c in plan.component_id}))
+    lines = [None] * len(temps) if plan.batch.line is None else plan.batch.line.tolist()
+    return oil_temp_problems(temps, plan.component_id, lines, table, name)
 
 
 def _units(parsed: ParsedFile) -> set[str]:
