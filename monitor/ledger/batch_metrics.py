@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from monitor.domain.records import Problem
 from monitor.domain.specs import ComponentModelSpec, OilSpec
 from monitor.ledger.batch import Batch, ComponentTable
 from monitor.ledger.metrics import (
@@ -63,6 +64,36 @@ def batch_metrics(
                 out[k][rows] = v
     out["oil_temp_c"] = np.array([None if t != t else t for t in temp.tolist()], dtype=object)
     out["oil_factor_source"] = source
+    return out
+
+
+OIL_VISCOSITY_RANGE_MM2S = (2.0, 1000.0)
+"""Viscosities at which a period mean oil temperature is sensible for an oil [mm2/s]: from
+about 2 mm2/s, below which the simple ASTM D341 line is no longer valid, to 1000 mm2/s,
+the usual cold-start limit of axial-piston units above which a loop does not work under
+load (common practice, no source)."""
+
+
+def oil_temp_problems(
+    temp_c: np.ndarray, component_id: np.ndarray, lines: list, table: ComponentTable, file: str
+) -> list[Problem]:
+    """Problems of upload oil temperatures [degC] outside their oil's sensible range
+    (:data:`OIL_VISCOSITY_RANGE_MM2S`); one per histogram, ``lines`` its source lines."""
+    out: list[Problem] = []
+    lo, hi = OIL_VISCOSITY_RANGE_MM2S
+    for i in np.flatnonzero(np.isfinite(temp_c)).tolist():
+        spec = table.oils[int(component_id[i])]
+        line = oil_mod.oil_line_from_spec(**_oil_kwargs(spec))
+        nu = float(oil_mod.walther_viscosity_mm2s(temp_c[i], *line))
+        if lo <= nu <= hi:
+            continue
+        t_lo, t_hi = (float(oil_mod.temperature_at_viscosity_c(v, *line)) for v in (hi, lo))
+        out.append(
+            Problem(file, lines[i], "oil_temp", f"{temp_c[i]:.1f} degC",
+                    f"oil {spec.name} would be {nu:.3g} mm2/s at this temperature: a period "
+                    f"mean operating temperature of this oil is expected between {t_lo:.0f} "
+                    f"and {t_hi:.0f} degC ({lo:g} to {hi:g} mm2/s); check the value and its unit")
+        )  # fmt: skip
     return out
 
 
