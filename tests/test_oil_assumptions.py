@@ -404,3 +404,17 @@ def test_differing_oil_temp_in_one_histogram_is_refused():
     problems = parse_file(csv(rows, "c"), "t.csv").problems
     assert [p.line for p in problems] == [3]
     assert "differs from the 60 that the other rows" in problems[0].message
+
+
+def test_upgrading_a_store_with_a_ledger_marks_it_stale(sqlite_url):
+    from alembic import command
+
+    engine = store(sqlite_url, registry(), [csv([day_rows(1, 100)])])
+    assert not usecases.ledger_stale(engine)
+    engine.dispose()
+    command.downgrade(db.alembic_config(sqlite_url), "0005")
+    engine = usecases.init_db(sqlite_url)  # upgrade head: rows written the old way
+    assert usecases.ledger_stale(engine)
+    usecases.recompute(engine)
+    assert not usecases.ledger_stale(engine)
+    assert ledger(engine)[0]["oil_factor_source"] == "none"
