@@ -225,6 +225,18 @@ def upload(url: str | None, payload: bytes, name: str) -> usecases.FileResult:
     return result
 
 
+def ledger_stale(url: str | None) -> bool:
+    """True when the ledger must be recomputed to follow the settings (not cached)."""
+    return usecases.ledger_stale(engine(url))
+
+
+def recompute(url: str | None) -> int:
+    """Rebuild the damage ledger (usecases.recompute) and clear the caches."""
+    n = usecases.recompute(engine(url))
+    clear()
+    return n
+
+
 def save_settings(url: str | None, values: dict) -> dict:
     """Validate and store settings (usecases.save_settings) and clear the caches."""
     saved = usecases.save_settings(engine(url), values)

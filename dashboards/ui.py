@@ -410,6 +410,14 @@ def summary_markdown(lines: list[str]) -> str:
 
 
 _LABELS = {
+    "suggested_level": "Level suggested (ISO 281)",
+    "band_pressure": "Band pressure",
+    "oil_temp_c": "Oil temperature [°C]",
+    "oil_factor_source": "Oil temperature from",
+    "contamination_level": "Contamination level (ISO 281)",
+    "contamination_ec": "eC [-]",
+    "kappa_floor_hours": "Hours at the aISO floor [h]",
+    "life_before_data": "Life before first upload",
     "taken_at": "Taken at (UTC)",
     "iso4406": "ISO 4406 code",
     "r4": "≥ 4 µm(c)",

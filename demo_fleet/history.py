@@ -115,8 +115,8 @@ class UnitHistory:
 def _damage(pos: PositionHistory, hist: UnitHistory) -> np.ndarray:
     """Miner damage of each day [-] with life model v1 (band midpoints).
 
-    Pressure spectra carry the ISO 281 oil-condition factor of the latest oil sample
-    (:mod:`demo_fleet.oil_samples`); pressure x speed matrices are logged only by the
+    Pressure spectra carry the ISO 281 oil-condition factor at the fleet oil's chosen
+    level (:mod:`demo_fleet.oil_samples`); pressure x speed matrices are logged only by the
     motors, whose model has no bearing data (factor 1).
     """
     model = pos.model
@@ -125,7 +125,7 @@ def _damage(pos: PositionHistory, hist: UnitHistory) -> np.ndarray:
         ec = np.full(hours.shape[0], np.nan)
         if "bearing" in model:
             pitch = model["bearing"]["pitch_diameter_mm"]
-            ec = oil_samples.daily_contamination_ec(hist.visits, hist.codes, ec.size, pitch)
+            ec[:] = oil_samples.level_ec(pitch)
         a_oil = oil_samples.oil_life_factor(model, pos.speed_rpm, ec)
         ratio = pos.speed_rpm / model["rated_speed_rpm"]
         per_hour = duty.damage_per_hour(model, ratio, 1.0 / a_oil)

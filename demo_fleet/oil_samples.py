@@ -1,9 +1,10 @@
 """Oil of the demo fleet: service visits, ISO 4406 samples and their effect on bearing life.
 
-The monthly visits and their oil samples are drawn before a unit's history is simulated,
-because the cleanliness of the oil changes how fast the bearings use up their life: the
-shop's damage figures (and drivespan's ledger, which the demo is read with) apply the
-ISO 281 oil-condition factor a_oil of the latest sample to each day's spectrum.
+The monthly visits and their oil samples are drawn with a unit's history. The shop's
+damage figures (and drivespan's ledger, which the demo is read with) apply the ISO 281
+oil-condition factor a_oil at the loops' operating temperature and at the contamination
+level the registry chooses for the fleet oil; the samples only suggest a level (a dirty
+episode shows as a suggestion of a worse level next to the chosen one).
 """
 
 from __future__ import annotations
@@ -11,8 +12,8 @@ from __future__ import annotations
 import numpy as np
 
 from demo_fleet.duty import MID_BAR
-from demo_fleet.scenario import OIL_NU40_MM2S, OIL_NU100_MM2S
-from monitor.models.bearings import contamination_factor_from_iso4406
+from demo_fleet.scenario import OIL, OIL_NU40_MM2S, OIL_NU100_MM2S, OPERATING_TEMP_C
+from monitor.models.bearings import CONTAMINATION_LEVEL_NAMES, contamination_factor
 from monitor.models.bearings import oil_life_factor as _iso281_oil_factor
 
 CLEAN_CODE = (18, 16, 13)
@@ -26,9 +27,12 @@ RECOVERY_DAYS = 60
 the episode (filters catching up) [d]."""
 NOISE_SD = 0.03
 """Relative standard deviation of a case-drain measurement [-] (common practice, no source)."""
-OPERATING_TEMP_C = 50.0
-"""Oil temperature at which the oil-condition factor is evaluated [degC]: the models'
-case-drain test temperature, as drivespan's ledger does."""
+
+
+def level_ec(pitch_diameter_mm: float) -> float:
+    """ISO 281 contamination factor eC of the fleet oil's chosen level [-]."""
+    key = CONTAMINATION_LEVEL_NAMES[OIL["contamination_level"]]
+    return contamination_factor(key, pitch_diameter_mm)
 
 
 def walther_viscosity(
@@ -90,26 +94,11 @@ def sample_codes(
     return [f"{a}/{b}/{c}" for a, b, c in codes]
 
 
-def daily_contamination_ec(
-    visits: np.ndarray, codes: list[str], n_days: int, pitch_diameter_mm: float
-) -> np.ndarray:
-    """ISO 281 contamination factor eC in force on each day [-] (nan before the first sample).
-
-    A day's histogram ends at the next midnight, after the morning visit, so a sample
-    counts from its own day on (the ledger takes the latest sample at or before a
-    histogram's period end).
-    """
-    ec = np.full(n_days, np.nan)
-    for day, code in zip(visits, codes, strict=True):
-        ec[day:] = contamination_factor_from_iso4406(code, pitch_diameter_mm)
-    return ec
-
-
 def oil_life_factor(model: dict, speed_rpm: np.ndarray, ec: np.ndarray) -> np.ndarray:
     """ISO 281 oil-condition factor a_oil per day and pressure band [-], shape (days, K).
 
-    ``speed_rpm`` and ``ec`` are per day; a_oil is 1 on days without a known sample
-    and for models without bearing data; where ISO 281 has no value (kappa < 0.1)
+    ``speed_rpm`` and ``ec`` are per day; a_oil is 1 where ``ec`` is nan and for
+    models without bearing data; where ISO 281 has no value (kappa < 0.1)
     the factor at its floor is used, as drivespan's ledger does.
 
     Notes
@@ -146,19 +135,11 @@ def oil_life_factor(model: dict, speed_rpm: np.ndarray, ec: np.ndarray) -> np.nd
 
 
 def expected_inverse_factor(model: dict, speed_rpm: float) -> np.ndarray:
-    """Mean of 1 / a_oil per pressure band over the clean samples' code spread [-], (K,).
+    """1 / a_oil per pressure band at the fleet oil's level [-], (K,).
 
     Used to calibrate a unit's duty so its expected bearing life, as the ledger
     computes it with the oil factor, equals the drawn target.
     """
     bearing = model.get("bearing")
-    shifts = np.array(CODE_SHIFTS)
-    out = 0.0
-    for shift in np.unique(shifts):
-        code = "/".join(str(v + shift) for v in CLEAN_CODE)
-        ec = 1.0
-        if bearing is not None:
-            ec = contamination_factor_from_iso4406(code, bearing["pitch_diameter_mm"])
-        a = oil_life_factor(model, np.array([speed_rpm]), np.array([ec]))[0]
-        out = out + np.mean(shifts == shift) / a
-    return out
+    ec = 1.0 if bearing is None else level_ec(bearing["pitch_diameter_mm"])
+    return 1.0 / oil_life_factor(model, np.array([speed_rpm]), np.array([ec]))[0]

@@ -13,8 +13,18 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-OIL = {"name": "hydro-46", "iso_vg": 46, "viscosity_index": 100}
-"""The fleet oil: ISO VG 46, VI 100 (ISO 3448 grade midpoint)."""
+OIL = {
+    "name": "hydro-46",
+    "iso_vg": 46,
+    "viscosity_index": 100,
+    "contamination_level": "slight contamination",
+}
+"""The fleet oil: ISO VG 46, VI 100 (ISO 3448 grade midpoint), kept at the ISO 281 level
+"slight contamination" (what its usual samples, about 18/16/13, suggest)."""
+
+OPERATING_TEMP_C = 50.0
+"""Operating oil temperature of the demo's drive loops [degC] (invented; every component
+model's ``operating_temp_c`` in the demo registry)."""
 
 OIL_NU40_MM2S = 46.0
 """Kinematic viscosity of the fleet oil at 40 degC [mm2/s] (ISO 3448 VG 46 midpoint)."""
@@ -40,6 +50,7 @@ COMPONENT_MODELS: list[dict] = [
         "life_exponent": 3.333,
         "low_side_bar": 24.0,
         "relief_bar": 420.0,
+        "operating_temp_c": OPERATING_TEMP_C,
         "case_drain": {
             "test_dp_bar": 250.0,
             "test_temp_c": 50.0,
@@ -66,6 +77,7 @@ COMPONENT_MODELS: list[dict] = [
         "low_side_bar": 27.0,
         "relief_bar": 435.0,
         "cutoff_bar": 400.0,
+        "operating_temp_c": OPERATING_TEMP_C,
         "case_drain": {
             "test_dp_bar": 250.0,
             "test_temp_c": 50.0,
@@ -91,6 +103,7 @@ COMPONENT_MODELS: list[dict] = [
         "life_exponent": 3.333,
         "low_side_bar": 27.0,
         "relief_bar": 435.0,
+        "operating_temp_c": OPERATING_TEMP_C,
         "case_drain": {
             "test_dp_bar": 250.0,
             "test_temp_c": 50.0,

@@ -74,42 +74,43 @@ def _a_iso_roller(kappa: np.ndarray, x: np.ndarray) -> np.ndarray:
     return np.minimum(a, 50.0)
 
 
-def _ec(code: str) -> float:
-    """eC of an ISO 4406 code by its >= 14 um number: the project's documented mapping
-    (monitor.models.bearings.ISO4406_CLEANLINESS_MAP) with the middle of the ISO 281 guide
-    range for pitch diameters below 100 mm."""
-    r14 = int(code.split("/")[2])
-    return 0.55 if r14 <= 12 else 0.4 if r14 <= 14 else 0.2 if r14 <= 16 else 0.05
+_EC_GUIDE = {"normal cleanliness": 0.55, "slight contamination": 0.4}
+"""ISO 281:2007 eC guide, middle of the range for pitch diameters below 100 mm (from
+memory): the levels the demo registry uses."""
 
 
-def _a_oil(g: pd.DataFrame, m: dict, samples: pd.DataFrame, speed: np.ndarray) -> np.ndarray:
-    """Oil-condition factor of each band row, relative to kappa 1 and normal cleanliness
-    (DESIGN.md life model v1): the latest sample at or before the period end, viscosity
-    at 50 degC on the ASTM D341 line, nu1 from ISO 281:2007 Eqs. (12)/(13)."""
+def _a_oil(g: pd.DataFrame, m: dict, level: str, speed: np.ndarray) -> np.ndarray:
+    """Oil-condition factor of each band row, relative to kappa 1 and normal cleanliness:
+    viscosity at the model's operating_temp_c on the ASTM D341 line, nu1 from ISO
+    281:2007 Eqs. (12)/(13), eC of the registry's contamination level (samples only
+    suggest one); 1 without bearing data or operating temperature."""
     b = m.get("bearing")
-    if b is None or samples.empty:
+    if b is None or m.get("operating_temp_c") is None:
         return np.ones(len(g))
-    samples = samples.sort_values("taken")
-    ends = pd.to_datetime(g.period_end).to_numpy()
-    idx = np.searchsorted(samples.taken.to_numpy(), ends, side="right") - 1
-    codes = samples.iso4406.to_numpy()
-    ec = np.array([_ec(codes[i]) if i >= 0 else np.nan for i in idx])
+    ec = _EC_GUIDE[level]
     dm, cu, p_rated = b["pitch_diameter_mm"], b["fatigue_limit_kn"], b["load_at_rated_kn"]
     nu1 = np.where(speed < 1000, 45000 * speed**-0.83, 4500 * speed**-0.5) / np.sqrt(dm)
-    kappa = np.minimum(walther_viscosity(50.0) / nu1, 4.0)
+    kappa = np.minimum(walther_viscosity(m["operating_temp_c"]) / nu1, 4.0)
     dp = np.maximum(0.0, (g.pressure_low_bar + g.pressure_high_bar) / 2 - m["low_side_bar"])
     with np.errstate(divide="ignore"):
         x = ec * cu / (p_rated * dp.to_numpy() / m["rated_dp_bar"])
     ref = _a_iso_roller(np.array(1.0), np.array(0.55 * cu / p_rated))
-    a = _a_iso_roller(kappa, np.nan_to_num(x, nan=1.0, posinf=1e9)) / ref
-    return np.where(np.isnan(ec), 1.0, a)
+    return _a_iso_roller(kappa, np.nan_to_num(x, nan=1.0, posinf=1e9)) / ref
+
+
+def _level(registry: dict, tag: str) -> str:
+    """The unit's contamination level: its site's, else its oil's, else normal."""
+    unit = next(u for u in registry["units"] if u["tag"] == tag)
+    site = next(s for s in registry["sites"] if s["name"] == unit["site"])
+    oil = next(o for o in registry["oils"] if o["name"] == unit["oil"])
+    return site.get("contamination_level") or oil.get("contamination_level") or "normal cleanliness"
 
 
 def _consumed(
     hist: pd.DataFrame, registry: dict, tag: str, position: str, reads: pd.DataFrame
 ) -> float:
     """Miner damage since the last rebuild, per DESIGN.md life model v1 (by hand), with
-    the ISO 281 oil-condition factor of the unit's latest oil sample."""
+    the ISO 281 oil-condition factor at the registry's temperature and level."""
     m = _model_of(registry, tag, position)
     since = _last_service(registry, tag, position)
     g = hist[(hist.unit == tag) & (hist.position == position) & (hist.start >= since)]
@@ -118,8 +119,7 @@ def _consumed(
     speed = np.where(matrix, (g.speed_low_rpm + g.speed_high_rpm) / 2, g.mean_speed_rpm)
     life = m["rated_l10_h"] * (m["rated_dp_bar"] / dp) ** m["life_exponent"]
     life = life * m["rated_speed_rpm"] / speed
-    samples = reads[(reads.unit == tag) & (reads.position == position) & reads.iso4406.notna()]
-    life = life * _a_oil(g, m, samples, speed.astype(float))
+    life = life * _a_oil(g, m, _level(registry, tag), speed.astype(float))
     return float(np.sum(np.where(dp > 0, g.hours / life, 0.0)))
 
 

@@ -172,15 +172,15 @@ def test_rank_matches_hand_calculation(db_url):
     assert left["damage_rate_per_h"] == pytest.approx(RATE_LEFT, rel=1e-6)
     assert left["remaining_bearing_h"] == pytest.approx(BEARING_LEFT, rel=1e-6)
     assert left["remaining_wear_h"] == pytest.approx(WEAR_LEFT, rel=1e-6)
-    # Three readings cannot give a 95 % range: the exact distribution-free interval of the
-    # Theil-Sen slope covers at most 1 - 2/3! = 67 % with n = 3 (Hollander & Wolfe), so no
-    # range is claimed and few_wear_readings is raised.
+    # three readings: the exact slope interval cannot reach 95 % (1 - 2/3! = 67 %,
+    # Sen 1968), so no range is claimed and few_wear_readings is raised
     assert left["remaining_wear_h_low"] is None and left["remaining_wear_h_high"] is None
     assert left["remaining_h"] == pytest.approx(WEAR_LEFT, rel=1e-6)
     assert left["limiting"] == "wear"
     assert left["status"] == "plan ahead"  # 250 < 600 <= 1000 h
     assert left["due_date"] == DUE_LEFT.isoformat() == "2026-05-01"
-    assert left["flags"] == ["few_wear_readings"]
+    # no rebuild recorded and the first upload starts at 1000 h on the hour meter
+    assert left["flags"] == ["few_wear_readings", "life_before_data_unknown"]
     assert right["consumed_fraction"] == pytest.approx(CONSUMED_RIGHT, rel=1e-6)
     assert right["remaining_bearing_h"] == pytest.approx(BEARING_RIGHT, rel=1e-6)
     assert right["remaining_wear_h"] == pytest.approx(WEAR_RIGHT, rel=2e-3)
@@ -189,7 +189,7 @@ def test_rank_matches_hand_calculation(db_url):
     assert right["due_date"] == DUE_RIGHT.isoformat()
     assert right["relief_hours"] == pytest.approx(10.0, rel=1e-9)
     assert right["relief_heat_kwh"] == pytest.approx(900.0, rel=1e-9)
-    assert right["flags"] == ["heavy_relief", "few_wear_readings"]  # 3 readings: no 95 % range
+    assert right["flags"] == ["heavy_relief", "few_wear_readings", "life_before_data_unknown"]
     for r in rows:
         assert r["hour_meter"] == pytest.approx(1600.0)
         assert r["hours_since_rebuild"] == pytest.approx(600.0)
@@ -231,11 +231,9 @@ def cli_keys() -> tuple[str, ...]:
 def test_planning_reliability_divides_by_a1(sqlite_url):
     build(sqlite_url, standard_files())
     left = _by_position(rank_json(sqlite_url, "--reliability", "95"))["left"]
-    # ISO 281:2007 tabulates a1 = 0.64 at 95 %; at a tabulated reliability the printed value
-    # is used (the closed form 0.95 (ln(100/S)/ln(100/90))^(2/3) + 0.05 gives 0.6379).
+    a1 = 0.64  # ISO 281:2007 table of a1, printed value at 95 % (used as printed)
     closed = 0.95 * (math.log(100 / 95) / math.log(100 / 90)) ** (2 / 3) + 0.05
-    assert closed == pytest.approx(0.64, abs=0.005)
-    a1 = 0.64
+    assert closed == pytest.approx(a1, abs=0.005)  # the closed form rounds to it
     assert left["consumed_fraction"] == pytest.approx(CONSUMED_LEFT / a1, rel=1e-6)
     assert left["remaining_bearing_h"] == pytest.approx(
         (1 - CONSUMED_LEFT / a1) / (RATE_LEFT / a1), rel=1e-6
@@ -249,7 +247,8 @@ def test_as_of_cuts_data_at_the_start_of_the_day(sqlite_url):
     assert left["hour_meter"] == pytest.approx(1310.0)
     assert left["consumed_fraction"] == pytest.approx(31 * D_LEFT, rel=1e-6)
     # readings before 2026-02-01: days 10 and 30 only -> two readings, no trend
-    assert left["remaining_wear_h"] is None and left["flags"] == ["few_wear_readings"]
+    assert left["remaining_wear_h"] is None
+    assert left["flags"] == ["few_wear_readings", "life_before_data_unknown"]  # from 1000 h
 
 
 def _ledger(url: str) -> pd.DataFrame:

@@ -24,7 +24,7 @@ from monitor import fleet, usecases
 from monitor.fleet import wear_status
 from monitor.ingest.parse import parse_file
 from monitor.ledger import batch_metrics, metrics
-from monitor.models import oil
+from monitor.models import bearings, oil
 from monitor.store import checks, db, ledger_rows, queries, status_reads
 from monitor.usecases.demo import build_demo
 from tests import reference_paths
@@ -63,10 +63,27 @@ def _stored_ledger(conn) -> pd.DataFrame:  # noqa: ANN001
     return df[["upload_id", "component_id", "period_end", *VALUE_COLUMNS]]
 
 
-def _samples(conn, cid: int) -> pd.DataFrame:  # noqa: ANN001
-    r = db.reading
-    q = select(r.c.taken_at, r.c.iso4406).where(r.c.component_id == cid, r.c.iso4406.is_not(None))
-    return pd.DataFrame(conn.execute(q).all(), columns=["taken_at", "iso4406"])
+def _reference_oil(hists: list, model, row: pd.Series) -> metrics.OilCondition:  # noqa: ANN001
+    """The oil state per histogram, plainly: the upload's oil temperature, else the
+    component's, the unit's or the model's; viscosity on the oil's D341 line; eC of the
+    site's, else the oil's, else the default level."""
+    fallback = next(
+        (float(v) for v in (row["c_operating_temp_c"], row["u_operating_temp_c"],
+                            model.operating_temp_c) if v is not None and v == v),
+        None,
+    )  # fmt: skip
+    spec = queries.oil_spec(row)
+    line = oil.oil_line_from_spec(**batch_metrics._oil_kwargs(spec))
+    level = row["site_contamination_level"] or spec.contamination_level or "normal cleanliness"
+    ec = bearings.contamination_factor(
+        bearings.CONTAMINATION_LEVEL_NAMES[level], model.bearing_pitch_diameter_mm
+    )
+    nu, ecs = [], []
+    for h in hists:
+        t = h.oil_temp_c if h.oil_temp_c is not None else fallback
+        nu.append(np.nan if t is None else float(oil.walther_viscosity_mm2s(t, *line)))
+        ecs.append(np.nan if t is None else ec)
+    return metrics.OilCondition(np.array(nu), np.array(ecs))
 
 
 def _reference_component(conn, cid: int, row: pd.Series) -> pd.DataFrame | None:  # noqa: ANN001
@@ -79,14 +96,7 @@ def _reference_component(conn, cid: int, row: pd.Series) -> pd.DataFrame | None:
         return None
     ups, hists = list(chosen), list(chosen.values())
     model = queries.model_spec(row)
-    cond = None
-    if metrics.has_bearing_data(model):
-        line = oil.oil_line_from_spec(**batch_metrics._oil_kwargs(queries.oil_spec(row)))
-        cond = metrics.oil_condition(
-            _samples(conn, cid), [h.period_end for h in hists], model, line
-        )
-        if cond is None:
-            cond = metrics.OilCondition(np.full(len(hists), np.nan), np.full(len(hists), np.nan))
+    cond = _reference_oil(hists, model, row) if metrics.has_bearing_data(model) else None
     met = reference_paths.metrics_for(hists, model, cond)
     df = pd.DataFrame(
         {

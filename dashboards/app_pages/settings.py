@@ -80,6 +80,21 @@ with st.form("settings_form"):
                                    value=float(current["case_drain_dp_ratio_min"]))  # fmt: skip
         ratio_hi = f3.number_input("Pressure ratio to [×]", min_value=1.0, step=0.25,
                                    value=float(current["case_drain_dp_ratio_max"]))  # fmt: skip
+    with st.expander("Life model"):
+        st.caption(
+            "The pressure a histogram band stands for: its midpoint, or its upper edge (more "
+            "cautious; about 70 % more damage on a typical spectrum, docs/life-model.md). "
+            "The damage ledger is computed with it: after a change, recompute the ledger."
+        )
+        rules = list(usecases.BAND_PRESSURE_CHOICES)
+        band_rule = st.radio("Band pressure", rules, horizontal=True,
+                             index=rules.index(current["band_pressure"]))  # fmt: skip
+        first_h = st.number_input(
+            "Life before the first upload unknown above [h on the hour meter]", min_value=1.0,
+            step=10.0, value=float(current["life_before_data_h"]),
+            help="A drive without a recorded rebuild whose first upload starts above this "
+            "hour meter is flagged life_before_data_unknown.",
+        )  # fmt: skip
     submitted = st.form_submit_button("Save settings", type="primary")
 
 if submitted:
@@ -89,6 +104,7 @@ if submitted:
         "heavy_relief_fraction": relief, "min_wear_readings": int(readings),
         "case_drain_step_min_before": int(before), "case_drain_temp_distance_k": distance,
         "case_drain_dp_ratio_min": ratio_lo, "case_drain_dp_ratio_max": ratio_hi,
+        "band_pressure": band_rule, "life_before_data_h": first_h,
         "status_limits": {"overdue_h": overdue, "due_h": due, "plan_h": plan},
     }  # fmt: skip
     try:
@@ -97,6 +113,13 @@ if submitted:
         ui.show_error(f"Not saved: {ui.setting_words(str(err))}", err.problems)
     else:
         st.success("Settings saved; the ranking uses them from now on.")
+
+if data.ledger_stale(ctx.url):
+    st.warning(usecases.RECOMPUTE_NEEDED)
+    if st.button("Recompute the ledger now", key="recompute"):
+        with st.spinner("Recomputing the damage ledger ..."):
+            n = data.recompute(ctx.url)
+        st.success(f"Ledger rebuilt: {n:,} rows, computed with the settings in force.")
 
 st.subheader("Fleet registry")
 text = data.registry_text(ctx.url)

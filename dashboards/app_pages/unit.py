@@ -40,6 +40,16 @@ with st.container(border=True):
     st.markdown(ui.summary_markdown(report.summary))
 st.dataframe(ui.table_frame(report.status).drop(columns=["site", "machine_type"]),
              column_config=ui.column_config(), hide_index=True, key="u_status")  # fmt: skip
+st.markdown(
+    "**Model assumptions used** — band pressure rule, oil temperature of the ISO 281 "
+    "oil factor and its source, contamination level in force (eC) next to the level "
+    "the latest oil sample suggests, hours at the aISO floor (kappa < 0.1), life "
+    "before the first upload (docs/life-model.md)"
+)
+st.dataframe(report.assumptions, hide_index=True, key="u_assumptions",
+             column_config=ui.labels(report.assumptions))  # fmt: skip
+if data.ledger_stale(ctx.url):
+    st.warning(usecases.RECOMPUTE_NEEDED)
 
 settings = data.settings(ctx.url)
 drain_note = (

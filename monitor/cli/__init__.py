@@ -10,6 +10,7 @@ from monitor.cli import (  # noqa: F401 - registers the commands
     commands,
     maintenance,
     plan_demo,
+    settings,
     trace,
 )
 from monitor.cli.common import main

@@ -13,6 +13,7 @@ from monitor import usecases
 from monitor.cli.common import (
     _as_of,
     _print_results,
+    _stale_warning,
     csv_records,
     db_option,
     domain_errors,
@@ -192,6 +193,7 @@ def rank_cmd(
         )
     df = usecases.fleet_status(engine, day, reliability_pct=reliability, site=site)
     records = usecases.rank_records(df)
+    _stale_warning(engine)
     if fmt == "json":
         emit(records, fmt)
     elif fmt == "csv":
@@ -224,6 +226,7 @@ def unit_cmd(tag: str, as_of: str | None, show_all: bool, fmt: str, db_url: str)
     day = _as_of(as_of)
     rep = usecases.unit_report(engine, tag, day)
     status = usecases.rank_records(rep.status)
+    _stale_warning(engine)
     if fmt == "json":
         emit(unit_view.unit_json(rep, status), "json")
     elif fmt == "csv":

@@ -191,6 +191,14 @@ def _notice() -> None:
     click.echo("\n" + ESTIMATE_NOTICE, err=True)
 
 
+def _stale_warning(engine) -> None:  # noqa: ANN001 - an Engine
+    """Tell the user on stderr when the ledger needs a recompute."""
+    from monitor import usecases
+
+    if usecases.ledger_stale(engine):
+        click.echo("warning: " + usecases.RECOMPUTE_NEEDED, err=True)
+
+
 def _frame_records(df) -> list[dict]:  # noqa: ANN001 - pandas.DataFrame
     from monitor import usecases
 

@@ -19,7 +19,7 @@ def _records(df) -> list[dict]:  # noqa: ANN001 - pandas.DataFrame
 
 def unit_json(rep, status: list[dict]) -> dict:  # noqa: ANN001 - usecases.UnitReport
     """The unit report as one JSON object (keys unit, status, uploads,
-    case_drain_readings, service_history, traces, summary)."""
+    case_drain_readings, service_history, traces, assumptions, summary)."""
     readings = {pos: _records(d.case_drain) for pos, d in rep.components.items()}
     return {
         "unit": rep.unit,
@@ -28,6 +28,7 @@ def unit_json(rep, status: list[dict]) -> dict:  # noqa: ANN001 - usecases.UnitR
         "case_drain_readings": readings,
         "service_history": _records(rep.service_history),
         "traces": _records(rep.traces),
+        "assumptions": _records(rep.assumptions),
         "summary": rep.summary,
     }
 
@@ -119,6 +120,8 @@ def print_unit(rep, status: list[dict], as_of, at, show_all: bool) -> None:  # n
     else:
         _print_history(rep)
     echo_traces(rep.traces)
+    click.echo("\nmodel assumptions used (docs/life-model.md):")
+    click.echo(tables.render(_texts(rep.assumptions), list(rep.assumptions.columns)))
     click.echo("\n" + ESTIMATE_NOTICE)
 
 

@@ -20,7 +20,8 @@ class HistogramBatch:
     ``quantity`` (object arrays of str), ``period_start_ns``/``period_end_ns`` (int64
     ns since the epoch, UTC), ``hour_meter_start``/``hour_meter_end`` [h],
     ``mean_speed_rpm`` [rpm] (nan where not given), ``line`` (first source line; None
-    when unknown for all), ``n_pressure`` (P) and ``n_speed`` (S, 0 for ``"pressure"``).
+    when unknown for all), ``n_pressure`` (P) and ``n_speed`` (S, 0 for ``"pressure"``),
+    ``oil_temp_c`` the period mean oil temperature [degC] (nan where not given).
 
     The bands of all histograms lie end to end in histogram order: ``pressure_low_bar``
     and ``pressure_high_bar`` (P per histogram), ``speed_low_rpm`` and ``speed_high_rpm``
@@ -44,6 +45,11 @@ class HistogramBatch:
     speed_low_rpm: np.ndarray
     speed_high_rpm: np.ndarray
     hours: np.ndarray
+    oil_temp_c: np.ndarray | None = None
+
+    def __post_init__(self) -> None:
+        if self.oil_temp_c is None:
+            self.oil_temp_c = np.full(self.n_pressure.size, np.nan)
 
     def __len__(self) -> int:
         return int(self.n_pressure.size)
@@ -114,6 +120,7 @@ class HistogramBatch:
         end = utc_datetimes(self.period_end_ns[idx])
         mean = [None if x != x else x for x in self.mean_speed_rpm[idx].tolist()]
         lines = [None] * idx.size if self.line is None else self.line[idx].tolist()
+        temps = [None if x != x else x for x in self.oil_temp_c[idx].tolist()]
         pl, ph, sl, sh, hr = (
             self.pressure_low_bar,
             self.pressure_high_bar,
@@ -137,14 +144,15 @@ class HistogramBatch:
             n_s,
             mean,
             lines,
+            temps,
             strict=True,
         )
-        for unit, pos, q, t0, t1, hm0, hm1, a, b, c, p, s, m, line in fields:
+        for unit, pos, q, t0, t1, hm0, hm1, a, b, c, p, s, m, line, temp in fields:
             hours = hr[c : c + p * s].reshape(p, s) if s else hr[c : c + p]
             out.append(
                 Histogram(
                     unit, pos, q, t0, t1, hm0, hm1, pl[a : a + p], ph[a : a + p], hours,
-                    sl[b : b + s] if s else None, sh[b : b + s] if s else None, m, line,
+                    sl[b : b + s] if s else None, sh[b : b + s] if s else None, m, line, temp,
                 )
             )  # fmt: skip
         return out
@@ -175,6 +183,7 @@ class HistogramBatch:
             speed_low_rpm=self.speed_low_rpm[s],
             speed_high_rpm=self.speed_high_rpm[s],
             hours=self.hours[h],
+            oil_temp_c=self.oil_temp_c[rows],
         )
 
     @classmethod
@@ -203,6 +212,9 @@ class HistogramBatch:
             speed_low_rpm=_flat([h.speed_low_rpm for h in hs if h.speed_low_rpm is not None]),
             speed_high_rpm=_flat([h.speed_high_rpm for h in hs if h.speed_high_rpm is not None]),
             hours=_flat([h.hours for h in hs]),
+            oil_temp_c=np.array(
+                [np.nan if h.oil_temp_c is None else h.oil_temp_c for h in hs], dtype=float
+            ),
         )
 
 

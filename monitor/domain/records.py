@@ -50,7 +50,8 @@ class Histogram:
     low edge, gaps allowed, no overlaps. For ``quantity == "pressure_speed"`` the
     speed bands ``speed_low_rpm``/``speed_high_rpm`` have shape (S,) and ``hours``
     has shape (P, S); for ``quantity == "pressure"`` the speed arrays are ``None`` and
-    ``hours`` has shape (P,). ``line`` is the first source line (for messages).
+    ``hours`` has shape (P,). ``line`` is the first source line (for messages);
+    ``oil_temp_c`` the period mean operating oil temperature [degC] if the export gives one.
     """
 
     unit: str
@@ -67,6 +68,7 @@ class Histogram:
     speed_high_rpm: np.ndarray | None = None
     mean_speed_rpm: float | None = None
     line: int | None = None
+    oil_temp_c: float | None = None  # period mean operating oil temperature [degC]
 
     @property
     def total_hours(self) -> float:

@@ -18,6 +18,8 @@ class OilSpec:
     viscosity_index: float | None = None
     nu40_mm2s: float | None = None
     nu100_mm2s: float | None = None
+    # ISO 281 contamination level (e.g. "normal cleanliness"); a site's level wins
+    contamination_level: str | None = None
 
 
 @dataclass(frozen=True)
@@ -43,6 +45,7 @@ class ComponentModelSpec:
     bearing_dynamic_load_kn: float | None = None
     bearing_fatigue_limit_kn: float | None = None
     bearing_load_at_rated_kn: float | None = None
+    operating_temp_c: float | None = None  # oil temperature in service [degC]
 
     @property
     def has_bearing_data(self) -> bool:
@@ -67,6 +70,7 @@ class ComponentModelSpec:
 @dataclass(frozen=True)
 class SiteSpec:
     name: str
+    contamination_level: str | None = None  # ISO 281 level; wins over the oil's
 
 
 @dataclass(frozen=True)
@@ -74,6 +78,9 @@ class ComponentSpec:
     position: str
     model: str
     serial: str | None = None
+    operating_temp_c: float | None = None  # overrides the unit's and the model's [degC]
+    consumed_at_first_upload: float | None = None  # life used before the first upload [-]
+    last_rebuild_hour_meter: float | None = None  # hour meter of the last known rebuild [h]
 
 
 @dataclass(frozen=True)
@@ -93,6 +100,7 @@ class UnitSpec:
     site: str
     machine_type: str
     oil: str
+    operating_temp_c: float | None = None  # overrides the component model's [degC]
     components: tuple[ComponentSpec, ...] = ()
     service: tuple[ServiceSpec, ...] = ()
 

@@ -9,7 +9,9 @@ gathered here.
 """
 
 from monitor.fleet.detail import (
+    ASSUMPTION_COLUMNS,
     ESTIMATE_NOTICE,
+    assumption_table,
     case_drain_detail,
     life_curve,
     oil_samples,
@@ -50,9 +52,11 @@ from monitor.fleet.wear_status import (
 )
 
 __all__ = [
+    "ASSUMPTION_COLUMNS",
     "DEFAULT_LIMITS",
     "ESTIMATE_NOTICE",
     "EXTRA_COLUMNS",
+    "assumption_table",
     "FLAGS",
     "FLAG_FEW",
     "FLAG_OFF_REFERENCE",

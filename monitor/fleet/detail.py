@@ -17,7 +17,10 @@ from monitor.domain.notices import ESTIMATE_NOTICE  # noqa: F401 - re-exported
 from monitor.domain.vocabulary import LIMIT_REACHED, NEW_LIFE
 from monitor.fleet.params import (
     FLAG_FEW,
+    FLAG_KAPPA_FLOOR,
+    FLAG_LIFE_BEFORE,
     FLAG_OFF_REFERENCE,
+    FLAG_OIL_NOT_APPLIED,
     FLAG_RELIEF,
     FLAG_STALE,
     FLAG_STEP,
@@ -155,8 +158,27 @@ def relief_monthly(rows: pd.DataFrame) -> pd.DataFrame:
     return g
 
 
+SAMPLE_COLUMNS = ["taken_at", "iso4406", "r4", "r6", "r14", "suggested_level"]
+
+_LEVEL_NAME = {v: k for k, v in bearings.CONTAMINATION_LEVEL_NAMES.items()}
+
+
+def suggested_level(code: str) -> str | None:
+    """The ISO 281 level an ISO 4406 code suggests (descriptive name), or None.
+
+    Only a suggestion: the >= 14 um number mapped by
+    :data:`monitor.models.bearings.ISO4406_CLEANLINESS_MAP` (from memory, see there); the
+    level in force is the registry's choice.
+    """
+    try:
+        return _LEVEL_NAME[bearings.cleanliness_level_from_iso4406(code)]
+    except ValueError:
+        return None
+
+
 def oil_samples(readings: pd.DataFrame) -> pd.DataFrame:
-    """Oil cleanliness samples: taken_at, iso4406 and its scale numbers (None for '-')."""
+    """Oil cleanliness samples: taken_at, iso4406, its scale numbers (None for '-') and
+    the ISO 281 level it suggests."""
     rd = readings[readings["iso4406"].notna()]
     rows = []
     for taken, code in zip(rd["taken_at"], rd["iso4406"], strict=True):
@@ -164,8 +186,61 @@ def oil_samples(readings: pd.DataFrame) -> pd.DataFrame:
             r4, r6, r14 = oil.parse_iso4406(code)
         except ValueError:
             r4 = r6 = r14 = None
-        rows.append({"taken_at": taken, "iso4406": code, "r4": r4, "r6": r6, "r14": r14})
-    return pd.DataFrame(rows, columns=["taken_at", "iso4406", "r4", "r6", "r14"])
+        rows.append(
+            {"taken_at": taken, "iso4406": code, "r4": r4, "r6": r6, "r14": r14,
+             "suggested_level": suggested_level(code)}
+        )  # fmt: skip
+    return pd.DataFrame(rows, columns=SAMPLE_COLUMNS)
+
+
+ASSUMPTION_COLUMNS = [
+    "position",
+    "band_pressure",
+    "oil_temp_c",
+    "oil_factor_source",
+    "contamination_level",
+    "contamination_ec",
+    "suggested_level",
+    "kappa_floor_hours",
+    "life_before_data",
+]
+"""Columns of :func:`assumption_table`."""
+
+
+def assumption_table(
+    status: pd.DataFrame, band_pressure: str, samples: Mapping[str, pd.DataFrame]
+) -> pd.DataFrame:
+    """Per drive, the model assumptions its figures rest on: the band pressure rule, the
+    oil temperature of the oil factor [degC] and its source, the contamination level in
+    force and its eC [-], the level the latest ISO 4406 sample suggests, hours at the aISO
+    floor since the rebuild [h] and how the life before the first upload is counted."""
+    rows = []
+    for r in status.to_dict("records"):
+        smp = samples.get(r["position"])
+        latest = None if smp is None or smp.empty else smp["suggested_level"].iloc[-1]
+        row = {k: r.get(k) for k in ASSUMPTION_COLUMNS}
+        rows.append({**row, "band_pressure": band_pressure, "suggested_level": latest})
+    return pd.DataFrame(rows, columns=ASSUMPTION_COLUMNS)
+
+
+def _oil_sentence(r: Mapping) -> str | None:
+    """What the oil-condition factor used, in words (None without bearing data)."""
+    src = r.get("oil_factor_source")
+    if src is None:
+        return None
+    where = {
+        "upload": "the upload's period mean",
+        "unit": "the registry's value for this unit",
+        "model": "the component model's operating_temp_c",
+    }
+    if src == "none":
+        text = "oil factor not applied (no operating oil temperature)"
+    else:
+        text = f"oil factor at {r['oil_temp_c']:.0f} degC ({where[src]})"
+    return (
+        f"  {r['position']}: {text}; contamination level {r['contamination_level']} "
+        f"(eC {r['contamination_ec']:.2f})."
+    )
 
 
 _FLAG_TEXT = {
@@ -180,6 +255,15 @@ _FLAG_TEXT = {
     "model's test temperature or at a test pressure outside {lo:g}-{hi:g} times the "
     "model's test pressure are shown but left out of the trend and the step check "
     "(settings case_drain_temp_distance_k, case_drain_dp_ratio_min/max)",
+    FLAG_OIL_NOT_APPLIED: "the model has bearing data but neither the upload, the unit nor "
+    "the component model gives an operating oil temperature: the ISO 281 oil factor is "
+    "not applied (a_oil = 1); set operating_temp_c in the registry or send oil_temp",
+    FLAG_KAPPA_FLOOR: "{floor:,.0f} h since the rebuild ran with a viscosity ratio kappa "
+    "below 0.1, where ISO 281 gives no aISO: damage there is counted at the table's floor "
+    "(aISO 0.1), a cautious value",
+    FLAG_LIFE_BEFORE: "no rebuild recorded and the first upload starts at {first:,.0f} h on "
+    "the hour meter: the life used before it is unknown and not counted; give "
+    "consumed_at_first_upload or last_rebuild_hour_meter in the registry",
 }
 
 
@@ -224,6 +308,9 @@ def unit_summary(status: pd.DataFrame, params: StatusParams) -> list[str]:
     out = []
     for r in status.to_dict("records"):
         out.append(_sentence(r, params))
+        oil_text = _oil_sentence(r)
+        if oil_text is not None:
+            out.append(oil_text)
         for flag in r["flags"]:
             out.append(f"  {r['position']}: " + _flag_sentence(flag, r, params))
     out.append(ESTIMATE_NOTICE)
@@ -243,6 +330,8 @@ def _flag_sentence(flag: str, r: Mapping, params: StatusParams) -> str:
         dist=params.case_drain_temp_distance_k,
         lo=params.case_drain_dp_ratio_min,
         hi=params.case_drain_dp_ratio_max,
+        floor=_num(r.get("kappa_floor_hours")) or 0.0,
+        first=(_num(r.get("hour_meter")) or 0.0) - (_num(r.get("hours_since_rebuild")) or 0.0),
     )
 
 

@@ -44,6 +44,12 @@ EXTRA_COLUMNS = (
     "has_cutoff",
     "n_wear_readings",
     "n_wear_readings_off",
+    "oil_temp_c",
+    "oil_factor_source",
+    "contamination_level",
+    "contamination_ec",
+    "kappa_floor_hours",
+    "life_before_data",
 )
 """Further columns of the status frame (dashboard detail), after the rank keys."""
 
@@ -54,7 +60,32 @@ FLAG_STEP = "case_drain_step"
 FLAG_RELIEF = "heavy_relief"
 FLAG_FEW = "few_wear_readings"
 FLAG_OFF_REFERENCE = "wear_readings_off_reference"
-FLAGS = (FLAG_STALE, FLAG_STEP, FLAG_RELIEF, FLAG_FEW, FLAG_OFF_REFERENCE)
+FLAG_OIL_NOT_APPLIED = "oil_factor_not_applied"
+FLAG_KAPPA_FLOOR = "kappa_below_range"
+FLAG_LIFE_BEFORE = "life_before_data_unknown"
+FLAGS = (
+    FLAG_STALE,
+    FLAG_STEP,
+    FLAG_RELIEF,
+    FLAG_FEW,
+    FLAG_OFF_REFERENCE,
+    FLAG_OIL_NOT_APPLIED,
+    FLAG_KAPPA_FLOOR,
+    FLAG_LIFE_BEFORE,
+)
+
+LIFE_BEFORE_SOURCES = (
+    "rebuild",
+    "new_at_first_upload",
+    "consumed_at_first_upload",
+    "last_rebuild_hour_meter",
+    "unknown",
+)
+"""How the life before a drive's first upload is counted: from a recorded rebuild; the
+drive was new (hour meter at most ``life_before_data_h`` at its first upload); the
+registry's consumed fraction; the hours since the registry's last known rebuild charged at
+the damage rate of the first 30 logged days; or not at all (flag
+``life_before_data_unknown``)."""
 
 DEFAULT_LIMITS = dict(lifecycle.DEFAULT_STATUS_LIMITS_H)
 
@@ -94,6 +125,10 @@ class StatusParams:
     case_drain_dp_ratio_min, case_drain_dp_ratio_max : float
         Readings whose test pressure over the model's test pressure lies outside this
         range are shown but not trended [-] (0.5-2: common practice, no source).
+    life_before_data_h : float
+        A drive without a recorded rebuild whose first upload starts above this hour
+        meter has an unknown life before the data, unless the registry gives it [h] (50:
+        a new drive's run-in and delivery hours, common practice, no source).
     """
 
     reliability_pct: float = 90.0
@@ -108,6 +143,7 @@ class StatusParams:
     case_drain_temp_distance_k: float = wear.REFERENCE_TEMP_DISTANCE_K
     case_drain_dp_ratio_min: float = wear.REFERENCE_DP_RATIO[0]
     case_drain_dp_ratio_max: float = wear.REFERENCE_DP_RATIO[1]
+    life_before_data_h: float = 50.0
 
     @property
     def step_min_before(self) -> int:

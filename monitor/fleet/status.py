@@ -21,6 +21,7 @@ import pandas as pd
 
 from monitor.fleet.params import (
     FLAGS,
+    LIFE_BEFORE_SOURCES,
     RANK_COLUMNS,
     STATUS_COLUMNS,
     StatusParams,
@@ -86,14 +87,21 @@ def bearing_frame(inputs: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
     """
     a1 = float(bearings.reliability_factor(params.reliability_pct))
     lo = _window_lower(inputs)
-    damage_life = _diff(inputs, "cum_damage", "base")
+    before = life_before_data(inputs, params)
+    damage_life = _diff(inputs, "cum_damage", "base") + before["damage"]
     win_hours = _diff(inputs, "cum_hours", "lo", lo)
     win_damage = _diff(inputs, "cum_damage", "lo", lo)
     consumed = lifecycle.consumed_fraction(damage_life, a1)
     rate = lifecycle.damage_rate_from_totals(win_damage, win_hours, a1)
     return pd.DataFrame(
         {
-            "hours_since_rebuild": _diff(inputs, "cum_meter_hours", "base"),
+            "hours_since_rebuild": _diff(inputs, "cum_meter_hours", "base") + before["hours"],
+            "life_before_data": before["source"],
+            "kappa_floor_hours": (
+                _diff(inputs, "cum_kappa_floor_hours", "base")
+                if "now_cum_kappa_floor_hours" in inputs
+                else np.zeros(len(inputs))
+            ),
             "consumed_fraction": consumed,
             "damage_rate_per_h": rate,
             "remaining_bearing_h": lifecycle.remaining_bearing_h(consumed, rate),
@@ -107,6 +115,69 @@ def bearing_frame(inputs: pd.DataFrame, params: StatusParams) -> pd.DataFrame:
         },
         index=inputs.index,
     )
+
+
+def life_before_data(inputs: pd.DataFrame, params: StatusParams) -> dict[str, np.ndarray]:
+    """Life used before a drive's first upload, per component: damage [-] (a1 = 1), hour
+    meter hours [h] and how it was counted (:data:`LIFE_BEFORE_SOURCES`).
+
+    Only without a recorded rebuild: with ``consumed_at_first_upload`` ``f`` the damage is
+    ``f``; with ``last_rebuild_hour_meter`` ``H`` it is ``(H0 - H) d30 / h30``, the hours
+    from that rebuild to the first upload's hour meter ``H0`` at the damage ``d30`` per
+    hour-meter hour ``h30`` of the first 30 logged days (hours ``H0 - H``); otherwise
+    nothing, and "unknown" when ``H0`` is above ``life_before_data_h``.
+    """
+    n = len(inputs)
+    no_rebuild = np.ones(n, bool)
+    if "rebuilt_at" in inputs:
+        no_rebuild = inputs["rebuilt_at"].isna().to_numpy()
+    first = _col(inputs, "first_hour_meter")
+    frac = _col(inputs, "consumed_at_first_upload")
+    last = _col(inputs, "last_rebuild_hour_meter")
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rate = _col(inputs, "early_damage") / _col(inputs, "early_meter_hours")
+    gap = np.maximum(first - last, 0.0)
+    use_frac = no_rebuild & ~np.isnan(frac)
+    use_last = no_rebuild & ~use_frac & ~np.isnan(last) & np.isfinite(rate) & ~np.isnan(first)
+    unknown = no_rebuild & ~use_frac & ~use_last & (first > params.life_before_data_h)
+    source = np.where(no_rebuild, LIFE_BEFORE_SOURCES[1], LIFE_BEFORE_SOURCES[0]).astype(object)
+    source[use_frac], source[use_last] = LIFE_BEFORE_SOURCES[2], LIFE_BEFORE_SOURCES[3]
+    source[unknown] = LIFE_BEFORE_SOURCES[4]
+    return {
+        "damage": np.where(use_frac, frac, 0.0) + np.where(use_last, gap * rate, 0.0),
+        "hours": np.where(use_last, gap, np.zeros(n)),
+        "source": source,
+    }
+
+
+def oil_columns(inputs: pd.DataFrame) -> dict[str, np.ndarray]:
+    """What the oil-condition factor of each drive's latest upload used: oil temperature
+    [degC] and its source, the ISO 281 contamination level (the site's, else the oil's,
+    else the default) and its eC [-]; None where the model has no bearing data."""
+    n = len(inputs)
+    pitch = _col(inputs, "m_bearing_pitch_diameter_mm")
+    has = ~np.isnan(pitch)
+    none = pd.Series([None] * n, index=inputs.index)
+    site = inputs.get("site_contamination_level", none)
+    oil = inputs.get("oil_contamination_level", none)
+    level = np.full(n, None, dtype=object)
+    ec = np.full(n, np.nan)
+    for i in np.flatnonzero(has).tolist():
+        lv = site.iat[i] or oil.iat[i] or bearings.DEFAULT_CONTAMINATION_LEVEL
+        level[i] = lv
+        key = bearings.CONTAMINATION_LEVEL_NAMES[lv]
+        ec[i] = bearings.contamination_factor(key, float(pitch[i]))
+    source = inputs.get("now_oil_factor_source", none).to_numpy(object)
+    return {
+        "oil_temp_c": _col(inputs, "now_oil_temp_c"),
+        "oil_factor_source": np.where(has, source, None),
+        "contamination_level": level,
+        "contamination_ec": ec,
+    }
+
+
+def _col(df: pd.DataFrame, name: str) -> np.ndarray:
+    return df[name].to_numpy(float) if name in df else np.full(len(df), np.nan)
 
 
 STATUS_BANDS = (*lifecycle.STATUS_BANDS, lifecycle.NO_ESTIMATE)
@@ -137,7 +208,11 @@ def _flags(df: pd.DataFrame, params: StatusParams) -> list[list[str]]:
     )
     step = df["case_drain_step"].to_numpy(bool)
     off = df["n_wear_readings_off"].to_numpy() > 0
+    no_oil = (df["oil_factor_source"] == "none").to_numpy(bool)
+    floor = df["kappa_floor_hours"].to_numpy(float) > 0
+    before = (df["life_before_data"] == LIFE_BEFORE_SOURCES[4]).to_numpy(bool)
     code = stale.astype(int) + 2 * step + 4 * relief + 8 * few + 16 * off
+    code = code + 32 * no_oil + 64 * floor + 128 * before
     return [list(_FLAG_SETS[c]) for c in code.tolist()]
 
 
@@ -193,6 +268,7 @@ def fleet_status(
         .to_numpy()
         / 86400.0,
         "has_cutoff": inputs["m_cutoff_bar"].notna().to_numpy(),
+        **oil_columns(inputs),
     }
     df = pd.concat([df, pd.DataFrame(extra)], axis=1)
     rem, lim = lifecycle.limiting_modes(

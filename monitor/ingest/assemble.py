@@ -68,6 +68,7 @@ def assemble(t: Table, g: Groups, start: np.ndarray, end: np.ndarray) -> Histogr
         speed_low_rpm=s_lo,
         speed_high_rpm=s_hi,
         hours=bands["hours"],
+        oil_temp_c=t.num["oil_temp"][f],
     )
 
 

@@ -45,8 +45,14 @@ HIST_UNIT_COLUMNS = {
     "speed_low": U.SPEED,
     "speed_high": U.SPEED,
     "mean_speed": U.SPEED,
+    "oil_temp": U.TEMPERATURE,
 }
 HIST_REQUIRED = (*HIST_TEXT, *HIST_NUMBERS, "pressure_low", "pressure_high")
+OPERATING_OIL_TEMP_RANGE_C = (-30.0, 150.0)
+"""Plausible period mean of a loop's operating oil temperature [degC]: outside it the
+value is a typo, a wrong unit or a sensor fault (common practice, no source). The oil's
+own range (its viscosity line) is checked against the registry when the file is stored."""
+
 READ_TEXT = ("unit", "position", "taken_at", "iso4406")
 READ_NUMBERS = ("hour_meter",)
 READ_UNIT_COLUMNS = {"case_drain": U.FLOW, "test_pressure": U.PRESSURE, "oil_temp": U.TEMPERATURE}

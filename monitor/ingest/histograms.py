@@ -19,6 +19,7 @@ from monitor.ingest.common import (
     HOURS_TOLERANCE_FRACTION,
     HOURS_TOLERANCE_H,
     MAX_PROBLEMS,
+    OPERATING_OIL_TEMP_RANGE_C,
     ProblemList,
     Table,
     check_numbers,
@@ -44,11 +45,11 @@ def histograms(t: Table, probs: ProblemList, period_overlaps: bool = True) -> Hi
     if t.n == 0:
         probs.add(None, None, None, "the file has a header but no rows of data")
         return None
-    for f in ("speed_low", "speed_high", "mean_speed"):
+    for f in ("speed_low", "speed_high", "mean_speed", "oil_temp"):
         if f not in t.num:
             t.num[f] = np.full(t.n, np.nan)
             t.raw[f] = t.num[f]
-            t.unit[f] = "rpm"
+            t.unit[f] = "c" if f == "oil_temp" else "rpm"
     check_text(t, ("unit", "position"), probs)
     is2d = _check_quantity(t, probs)
     start, end = parse_times(t, "period_start", probs), parse_times(t, "period_end", probs)
@@ -57,6 +58,7 @@ def histograms(t: Table, probs: ProblemList, period_overlaps: bool = True) -> Hi
     for f in ("pressure_low", "pressure_high"):
         check_numbers(t, f, U.PRESSURE, probs, required=True)
     _check_speeds(t, is2d, probs)
+    _check_oil_temp(t, probs)
     _check_band_edges(t, "pressure_low", "pressure_high", np.ones(t.n, bool), probs)
     _check_band_edges(t, "speed_low", "speed_high", is2d, probs)
     g = Groups.of(t, is2d)
@@ -121,15 +123,15 @@ def _check_group_constants(t: Table, g: Groups, probs: ProblemList, skip: np.nda
     """
     uneven = np.zeros(len(g.starts), dtype=bool)
     skip_rows = np.repeat(skip, g.ends - g.starts)
-    for f in ("hour_meter_start", "hour_meter_end", "mean_speed"):
-        v = g.sort(t.num[f])
+    for f in ("hour_meter_start", "hour_meter_end", "mean_speed", "oil_temp"):
+        v = g.sort(t.raw[f] if f == "oil_temp" else t.num[f])  # as written: one unit a column
         ref = np.repeat(v[g.starts], g.ends - g.starts)
         differ = ~_same(v, ref) & ~skip_rows
         if not differ.any():
             continue
         ref = _group_mode(g, v)
         differ = ~_same(v, ref) & ~skip_rows
-        if f != "mean_speed":
+        if f not in ("mean_speed", "oil_temp"):
             uneven |= np.logical_or.reduceat(differ, g.starts)
         raw_ref = dict(zip(g.order[differ].tolist(), ref[differ].tolist(), strict=True))
         probs.add_rows(
@@ -264,6 +266,31 @@ def _check_speeds(t: Table, is2d: np.ndarray, probs: ProblemList) -> None:
             t.refuse(f, need | extra)
         check_numbers(t, f, U.SPEED, probs, required=False)
     check_numbers(t, "mean_speed", U.SPEED, probs, required=False)
+
+
+def _check_oil_temp(t: Table, probs: ProblemList) -> None:
+    """The period mean oil temperature, when given, within the plausible operating range."""
+    f = "oil_temp"
+    check_numbers(t, f, U.TEMPERATURE, probs, required=False, minimum=U.RANGES[U.TEMPERATURE][0])
+    lo, hi = OPERATING_OIL_TEMP_RANGE_C
+    v = t.num[f]
+    with np.errstate(invalid="ignore"):
+        bad = ((v < lo) | (v > hi)) & ~t.bad_rows(f)
+    if not bad.any():
+        return
+    rows = np.flatnonzero(bad)
+    seen = {t.locate(r, f): r for r in rows[::-1].tolist()}  # JSON: once per histogram
+    probs.add_rows(
+        np.sort(np.fromiter(seen.values(), dtype=np.int64)),
+        f,
+        t,
+        lambda r: (
+            f"{fmt(t.raw[f][r])} {t.unit_at(f, r)} is {v[r]:.1f} degC, outside the plausible "
+            f"range {fmt(lo)} to {fmt(hi)} degC of a period mean operating oil temperature: "
+            "check the value and its unit (c or f)"
+        ),
+    )
+    t.refuse(f, bad)
 
 
 def _check_band_edges(

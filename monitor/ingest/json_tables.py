@@ -39,6 +39,8 @@ HIST_KEYS = (
     "speed_edges_rpm",
     "hours",
     "mean_speed_rpm",
+    "oil_temp",
+    "oil_temp_unit",
 )
 READING_KEYS = (
     "position",
@@ -136,6 +138,28 @@ def _json_num(
     return float(v)
 
 
+def _temperature(obj: dict, path: str, probs: ProblemList, refused: set) -> tuple:
+    """A histogram's ``oil_temp`` with its ``oil_temp_unit``: (degC, as written, unit);
+    NaN when absent or refused."""
+    v = _json_num(obj, "oil_temp", path, probs, required=False, refused=refused)
+    if np.isnan(v):
+        if "oil_temp_unit" in obj:
+            msg = "`oil_temp_unit` without `oil_temp`: give the temperature or remove the unit"
+            probs.add(None, _join(path, "oil_temp_unit"), shorten(obj["oil_temp_unit"]), msg)
+        return np.nan, np.nan, None
+    if "oil_temp_unit" not in obj:
+        msg = "`oil_temp` needs its unit: add `oil_temp_unit` (c or f)"
+        probs.add(None, _join(path, "oil_temp_unit"), None, msg)
+        refused.add("oil_temp")
+        return np.nan, v, None
+    u = _json_unit(obj, "oil_temp_unit", U.TEMPERATURE, path, probs)
+    if u is None:
+        refused.add("oil_temp")
+        return np.nan, v, None
+    with np.errstate(over="ignore"):
+        return float(U.convert([v], U.TEMPERATURE, u)[0]), v, u
+
+
 def _json_unit(obj: dict, key: str, kind: str, path: str, probs: ProblemList) -> str | None:
     v = obj.get(key, "")
     try:
@@ -215,6 +239,7 @@ class _Bands:
         se = _edges(obj, "speed_edges_rpm", path, probs) if q == QUANTITY_PRESSURE_SPEED else []
         refused: set = set()
         ms = _json_num(obj, "mean_speed_rpm", path, probs, required=False, refused=refused)
+        ot = _temperature(obj, path, probs, refused)
         if pu is None or pe is None or se is None:
             return
         shape = (len(pe) - 1,) if q == QUANTITY_PRESSURE else (len(pe) - 1, len(se) - 1)
@@ -225,7 +250,7 @@ class _Bands:
         position = _text(obj.get("position"), f"{path}.position", "position", probs)
         self.hists.append(
             dict(doc=id(doc), path=path, position=position, quantity=q, pu=pu, pe=pe, se=se,
-                 hours=h, n_s=shape[1] if len(shape) == 2 else 0, ms=ms, refused=refused)
+                 hours=h, n_s=shape[1] if len(shape) == 2 else 0, ms=ms, ot=ot, refused=refused)
         )  # fmt: skip
 
     def table(self) -> Table:
@@ -243,6 +268,9 @@ class _Bands:
         b.edges("speed", "se", j, lambda h: np.asarray(h["se"], dtype=np.float64))
         b.per_row("hours", np.concatenate([h["hours"] for h in hs]), "")
         b.per_hist("mean_speed", [h["ms"] for h in hs], "rpm")
+        b.per_hist("oil_temp", [h["ot"][0] for h in hs], "c")
+        b.raw["oil_temp"] = np.array([h["ot"][1] for h in hs], dtype=np.float64)[hist]
+        b.unit["oil_temp"] = np.array([h["ot"][2] or "c" for h in hs], dtype=object)[hist]
         docs = [self.docs[h["doc"]] for h in hs]
         for f in ("hour_meter_start", "hour_meter_end"):
             b.per_hist(f, [d[f] for d in docs], "")
@@ -264,9 +292,10 @@ class _Bands:
             per_hist = np.array([f in d["refused"] for d in docs], dtype=bool)
             if per_hist.any():
                 t.refuse(f, per_hist[hist])
-        per_hist = np.array(["mean_speed_rpm" in h["refused"] for h in hs], dtype=bool)
-        if per_hist.any():
-            t.refuse("mean_speed", per_hist[hist])
+        for f, key in (("mean_speed", "mean_speed_rpm"), ("oil_temp", "oil_temp")):
+            per_hist = np.array([key in h["refused"] for h in hs], dtype=bool)
+            if per_hist.any():
+                t.refuse(f, per_hist[hist])
         return t
 
 
@@ -319,6 +348,8 @@ def _band_path(hs: list, doc_paths: list, h: int, i: int, j: int, f: str) -> str
         return f"{p}.{f}"
     if f == "mean_speed":
         return f"{p}.mean_speed_rpm"
+    if f == "oil_temp":
+        return f"{p}.oil_temp"
     if f.startswith("pressure_"):
         return f"{p}.pressure_edges[{i + (f == 'pressure_high')}]"
     if f.startswith("speed_"):

@@ -10,7 +10,6 @@ schema is documented for users in ``docs/formats.md``.
 from __future__ import annotations
 
 import math
-from dataclasses import fields
 from datetime import UTC, datetime
 from typing import IO, Any
 
@@ -27,6 +26,7 @@ from monitor.domain.specs import (
     UnitSpec,
 )
 from monitor.domain.vocabulary import SERVICE_REASONS
+from monitor.ingest.common import OPERATING_OIL_TEMP_RANGE_C
 from monitor.ingest.limits import (
     EARLIEST_TIME,
     LATEST_TIME,
@@ -36,15 +36,21 @@ from monitor.ingest.limits import (
     TIME_RANGE_TEXT,
     shorten,
 )
+from monitor.ingest.registry_dump import dump_registry
 from monitor.ingest.units import PRESSURE_RANGE_BAR
 from monitor.ingest.yaml_text import load_yaml
+from monitor.models.bearings import CONTAMINATION_LEVEL_NAMES
+
+__all__ = ["dump_registry", "load_registry"]
 
 ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
 """ISO 3448 viscosity grades [mm2/s at 40 degC] (ISO 3448, from memory)."""
 
 # Field kinds: "text", "pos" (number > 0), "num0" (number >= 0), "num" (any number),
 # "hours" (0 <= h <= MAX_HOUR_METER_H),
-# "pressure" (0 < bar <= 1000), ("enum", choices), "time" (ISO 8601 with offset).
+# "pressure" (0 < bar <= 1000), ("enum", choices), "time" (ISO 8601 with offset),
+# "oil_temp" (an operating oil temperature in degC), "fraction" (0 <= x <= 1).
+LEVEL = (("enum", tuple(CONTAMINATION_LEVEL_NAMES)), False, None)
 # Each schema maps key -> (kind, required, default).
 OIL = {
     "name": ("text", True, None),
@@ -52,6 +58,7 @@ OIL = {
     "viscosity_index": ("num", False, None),
     "nu40_mm2s": ("pos", False, None),
     "nu100_mm2s": ("pos", False, None),
+    "contamination_level": LEVEL,
 }
 MODEL = {
     "name": ("text", True, None),
@@ -66,6 +73,7 @@ MODEL = {
     "cutoff_bar": ("pressure", False, None),
     "case_drain": ("block", False, None),
     "bearing": ("block", False, None),
+    "operating_temp_c": ("oil_temp", False, None),
 }
 CASE_DRAIN = {
     "test_dp_bar": ("pressure", True, None),
@@ -82,12 +90,13 @@ BEARING = {
     "fatigue_limit_kn": ("pos", True, None),
     "load_at_rated_kn": ("pos", True, None),
 }
-SITE = {"name": ("text", True, None)}
+SITE = {"name": ("text", True, None), "contamination_level": LEVEL}
 UNIT = {
     "tag": ("text", True, None),
     "site": ("text", True, None),
     "machine_type": ("text", True, None),
     "oil": ("text", True, None),
+    "operating_temp_c": ("oil_temp", False, None),
     "components": ("list", False, None),
     "service": ("list", False, None),
 }
@@ -95,6 +104,9 @@ COMPONENT = {
     "position": ("text", True, None),
     "model": ("text", True, None),
     "serial": ("text", False, None),
+    "operating_temp_c": ("oil_temp", False, None),
+    "consumed_at_first_upload": ("fraction", False, None),
+    "last_rebuild_hour_meter": ("hours", False, None),
 }
 SERVICE_KINDS = ("rebuild", "replacement", "hour_meter_change")
 SERVICE = {
@@ -118,6 +130,10 @@ _EXPECT = {
     "time": 'an ISO 8601 timestamp with an offset, e.g. "2026-03-02T10:00:00Z"',
     "block": "a mapping of fields",
     "list": "a list",
+    "oil_temp": "an operating oil temperature in degC, {} to {}".format(
+        *OPERATING_OIL_TEMP_RANGE_C
+    ),
+    "fraction": "a fraction of the rated life from 0 to 1",
 }
 
 
@@ -267,11 +283,16 @@ def _value(v: Any, kind: Any, path: str, ck: _Check) -> tuple[bool, Any]:
         or (kind == "num0" and v >= 0)
         or (kind == "hours" and 0 <= v <= MAX_HOUR_METER_H)
         or (kind == "pressure" and PRESSURE_RANGE_BAR[0] < v <= PRESSURE_RANGE_BAR[1])
+        or (kind == "oil_temp" and _OIL_T[0] <= v <= _OIL_T[1])
+        or (kind == "fraction" and 0 <= v <= 1)
     )
     if not ok:
         ck.add(path, v, f"expected {_EXPECT[kind]}")
         return False, None
     return True, float(v)
+
+
+_OIL_T = OPERATING_OIL_TEMP_RANGE_C
 
 
 def _finite(v: int | float) -> bool:
@@ -435,6 +456,14 @@ def _unit(entry: Any, path: str, ck: _Check) -> UnitSpec | None:
     ]
     if any(c is None for c in comps) or any(s is None for s in svc):
         return None
+    for i, c in enumerate(comps):
+        if {"consumed_at_first_upload", "last_rebuild_hour_meter"} <= set(c):
+            ck.add(
+                f"{path}.components[{i}].last_rebuild_hour_meter",
+                c["last_rebuild_hour_meter"],
+                "give at most one of consumed_at_first_upload or last_rebuild_hour_meter",
+            )
+            return None
     return UnitSpec(
         **v,
         components=tuple(ComponentSpec(**c) for c in comps),
@@ -520,59 +549,3 @@ def _names(names: set[str], most: int = 12) -> str:
     """The first ``most`` names, sorted (and how many there are in all)."""
     shown = ", ".join(shorten(n) for n in sorted(names)[:most]) or "(none)"
     return shown if len(names) <= most else f"{shown}, ... ({len(names)} in all)"
-
-
-# ---------------------------------------------------------------- writing
-
-
-def dump_registry(registry: Registry) -> str:
-    """YAML text of ``registry`` in the documented schema (read back equal by load_registry).
-
-    Parameters
-    ----------
-    registry : Registry
-        The registry to write.
-
-    Returns
-    -------
-    str
-        YAML text; optional fields that are unset are left out.
-    """
-    doc = {
-        "oils": [_plain(o) for o in registry.oils],
-        "component_models": [_model_plain(m) for m in registry.component_models],
-        "sites": [_plain(s) for s in registry.sites],
-        "units": [
-            {
-                **_plain(u, skip=("components", "service")),
-                "components": [_plain(c) for c in u.components],
-                "service": [_plain(s) for s in u.service],
-            }
-            for u in registry.units
-        ],
-    }
-    return yaml.safe_dump(doc, sort_keys=False, allow_unicode=True)
-
-
-def _plain(obj: Any, skip: tuple[str, ...] = ()) -> dict:
-    out = {}
-    for f in fields(obj):
-        v = getattr(obj, f.name)
-        if f.name in skip or v is None:
-            continue
-        out[f.name] = v.isoformat() if isinstance(v, datetime) else v
-    return out
-
-
-def _model_plain(m: ComponentModelSpec) -> dict:
-    flat = _plain(m)
-    out: dict[str, Any] = {
-        k: v for k, v in flat.items() if not k.startswith(("case_drain_", "bearing_"))
-    }
-    for block in ("case_drain", "bearing"):
-        sub = {k[len(block) + 1 :]: v for k, v in flat.items() if k.startswith(block + "_")}
-        if block == "case_drain" and set(sub) == {"flushing_lpm"}:
-            continue  # only the default: no case-drain data
-        if sub:
-            out[block] = sub
-    return out

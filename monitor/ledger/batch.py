@@ -50,6 +50,11 @@ class Batch:
     hour_meter_end: np.ndarray
     groups: list[Group]
     period_end_ns: np.ndarray | None = None  # ingest: the same ends [ns since the epoch]
+    oil_temp_c: np.ndarray | None = None  # the upload's period mean oil temperature [degC]
+
+    def __post_init__(self) -> None:
+        if self.oil_temp_c is None:
+            self.oil_temp_c = np.full(self.component_id.size, np.nan)
 
     def __len__(self) -> int:
         return int(self.component_id.size)
@@ -83,6 +88,7 @@ def batch_from_columns(
         hour_meter_end=b.hour_meter_end[rows],
         groups=groups,
         period_end_ns=ends,
+        oil_temp_c=b.oil_temp_c[rows],
     )
 
 

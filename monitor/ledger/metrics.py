@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 from monitor.domain.records import QUANTITY_PRESSURE_SPEED
 from monitor.domain.specs import ComponentModelSpec
@@ -27,14 +26,22 @@ class Metrics:
     relief_hours: np.ndarray
     cutoff_hours: np.ndarray
     relief_heat_kwh: np.ndarray
+    kappa_floor_hours: np.ndarray
 
 
 @dataclass(frozen=True)
 class OilCondition:
-    """Oil state a batch of histograms ran in: viscosity [mm2/s] and eC [-] per histogram."""
+    """Oil state a batch of histograms ran in: viscosity [mm2/s] and eC [-] per histogram
+    (nan where unknown: the oil-condition factor is then not applied, a_oil = 1)."""
 
     viscosity_mm2s: np.ndarray
     contamination_ec: np.ndarray
+
+
+OIL_SOURCES = ("upload", "unit", "model", "none")
+"""Where the operating oil temperature of a ledger row came from: the upload's period
+mean, the registry's unit (or component) override, the component model's
+``operating_temp_c``, or nowhere (the oil-condition factor is then not applied)."""
 
 
 def _model_kwargs(m: ComponentModelSpec) -> dict:
@@ -54,10 +61,11 @@ def has_bearing_data(m: ComponentModelSpec) -> bool:
 
 def _oil_factor(
     dp: np.ndarray, speed: np.ndarray, m: ComponentModelSpec, oil: OilCondition | None
-) -> np.ndarray | float:
-    """a_oil per band; 1 where the oil state is unknown, the aISO floor where kappa < 0.1."""
+) -> tuple[np.ndarray | float, np.ndarray | bool]:
+    """a_oil per band and where it took the floor: 1 where the oil state is unknown, the
+    aISO table's floor (0.1, relative to the reference) where kappa < 0.1."""
     if oil is None:
-        return 1.0
+        return 1.0, False
     extra = (1,) * (dp.ndim - 1)
     nu = oil.viscosity_mm2s.reshape(-1, *extra)
     ec = oil.contamination_ec.reshape(-1, *extra)
@@ -84,8 +92,10 @@ def _oil_factor(
         viscosity_mm2s=1e9,
         contamination_ec=0.0,
     )[0]
+    known = np.broadcast_to(known, a.shape)
+    floored = np.isnan(a) & known & (dp > 0) & (speed > 0)  # no damage at dp or n = 0
     a = np.where(np.isnan(a), floor, a)  # outside the method: take aISO at its floor (0.1)
-    return np.where(np.broadcast_to(known, a.shape), a, 1.0)
+    return np.where(known, a, 1.0), floored
 
 
 def metrics_arrays(
@@ -98,20 +108,22 @@ def metrics_arrays(
     hours: np.ndarray,
     mean: np.ndarray,
     oil: OilCondition | None,
+    band_pressure: str = "midpoint",
 ) -> dict:
     """Life-model results of k histograms of one model, quantity and shape.
 
     ``p_lo``/``p_hi`` (k, P) [bar], ``s_lo``/``s_hi`` (k, S) [rpm] for pressure-by-speed
     matrices, ``hours`` (k, P) or (k, P, S) [h], ``mean`` (k,) mean speed [rpm], nan
-    where not given. Returns arrays (k,) keyed by the :class:`Metrics` field names.
+    where not given; ``band_pressure`` the pressure a band stands for ("midpoint" or
+    "upper" edge). Returns arrays (k,) keyed by the :class:`Metrics` field names.
     """
-    kw = _model_kwargs(m)
+    kw = {**_model_kwargs(m), "band_pressure": band_pressure}
     k = p_lo.shape[0]
     if quantity == QUANTITY_PRESSURE_SPEED:
         dp, speed3 = spectrum.band_conditions_2d(
-            p_lo, p_hi, s_lo, s_hi, k, low_side_bar=m.low_side_bar
+            p_lo, p_hi, s_lo, s_hi, k, low_side_bar=m.low_side_bar, band_pressure=band_pressure
         )
-        a_oil = _oil_factor(dp, speed3, m, oil)
+        a_oil, floored = _oil_factor(dp, speed3, m, oil)
         damage = spectrum.damage_2d(p_lo, p_hi, s_lo, s_hi, hours, life_factor=a_oil, **kw)
         band_hours = hours.sum(axis=2)
         speed = np.where(
@@ -128,8 +140,9 @@ def metrics_arrays(
             rated_speed_rpm=m.rated_speed_rpm,
             low_side_bar=m.low_side_bar,
             mean_speed_rpm=mean,
+            band_pressure=band_pressure,
         )
-        a_oil = _oil_factor(dp, speed, m, oil)
+        a_oil, floored = _oil_factor(dp, speed, m, oil)
         damage = spectrum.damage_1d(p_lo, p_hi, hours, mean_speed_rpm=mean, life_factor=a_oil, **kw)
         band_hours = hours
     rel = relief.relief_summary(
@@ -141,40 +154,55 @@ def metrics_arrays(
         relief_bar=m.relief_bar,
         cutoff_bar=m.cutoff_bar,
         low_side_bar=m.low_side_bar,
+        band_pressure=band_pressure,
     )
+    floor_h = np.where(np.broadcast_to(floored, hours.shape), hours, 0.0)
     return {
         "hours": band_hours.sum(axis=1),
         "damage": np.nan_to_num(damage, nan=0.0),
         "relief_hours": rel.relief_hours,
         "cutoff_hours": rel.cutoff_hours,
         "relief_heat_kwh": rel.relief_heat_kwh,
+        "kappa_floor_hours": floor_h.reshape(k, -1).sum(axis=1),
     }
+
+
+def operating_temperature(
+    upload_temp_c: np.ndarray,
+    unit_temp_c: float | None,
+    model_temp_c: float | None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The operating oil temperature per histogram [degC] and its source.
+
+    The upload's period mean where given, else the registry's unit (or component)
+    override, else the component model's ``operating_temp_c``, else none (nan, source
+    "none": the oil-condition factor is not applied). Never the case-drain test
+    temperature: a test is run at a set temperature, not at the loop's working one.
+    """
+    t = np.asarray(upload_temp_c, dtype=float)
+    given = np.isfinite(t)
+    fallback, source = np.nan, "none"
+    if model_temp_c is not None:
+        fallback, source = float(model_temp_c), "model"
+    if unit_temp_c is not None:
+        fallback, source = float(unit_temp_c), "unit"
+    temp = np.where(given, t, fallback)
+    return temp, np.where(given, "upload", source).astype(object)
 
 
 def oil_condition(
-    samples: pd.DataFrame,
-    period_end: list,
+    temp_c: np.ndarray,
     m: ComponentModelSpec,
     oil_line: tuple[float, float] | None,
+    contamination_ec: float,
 ) -> OilCondition | None:
-    """Oil state per histogram: the latest ISO 4406 sample at or before its period end.
-
-    ``samples`` has columns taken_at (UTC) and iso4406 for one component. Viscosity is
-    read off the oil's ASTM D341 line at the model's case-drain test temperature
-    (standing in for the operating temperature; 50 degC when not given).
-    """
-    if not has_bearing_data(m) or oil_line is None or samples.empty:
+    """Oil state per histogram: viscosity at its operating temperature on the oil's
+    ASTM D341 line [mm2/s] and the chosen level's eC [-]; nan where no temperature."""
+    if not has_bearing_data(m) or oil_line is None:
         return None
-    ends = pd.to_datetime(pd.Series(period_end), utc=True).to_numpy()
-    taken = pd.to_datetime(samples["taken_at"], utc=True).to_numpy()
-    order = np.argsort(taken, kind="stable")
-    pos = np.searchsorted(taken[order], ends, side="right") - 1
-    codes = samples["iso4406"].to_numpy()[order]
-    ec_by_code = {
-        c: bearings.contamination_factor_from_iso4406(c, m.bearing_pitch_diameter_mm)
-        for c in set(codes)
-    }
-    ec = np.array([ec_by_code[codes[i]] if i >= 0 else np.nan for i in pos])
-    temp = m.case_drain_test_temp_c if m.case_drain_test_temp_c is not None else 50.0
-    nu = float(oil_mod.walther_viscosity_mm2s(temp, *oil_line))
-    return OilCondition(np.full(len(ends), nu), ec)
+    t = np.asarray(temp_c, dtype=float)
+    nu = np.full(t.shape, np.nan)
+    known = np.isfinite(t)
+    if known.any():
+        nu[known] = oil_mod.walther_viscosity_mm2s(t[known], *oil_line)
+    return OilCondition(nu, np.where(known, contamination_ec, np.nan))

@@ -73,6 +73,23 @@ CLEANLINESS_LEVELS = (
 )
 """Cleanliness levels of the ISO 281:2007 contamination guide, cleanest first."""
 
+CONTAMINATION_LEVEL_NAMES = {
+    "extreme cleanliness": "extreme",
+    "high cleanliness": "high",
+    "normal cleanliness": "normal",
+    "slight contamination": "slight",
+    "typical contamination": "typical",
+    "severe contamination": "severe",
+    "very severe contamination": "very severe",
+}
+"""The ISO 281:2007 guide's descriptive names of the cleanliness levels (as a user chooses
+them in the registry), cleanest first -> the short keys of :data:`CLEANLINESS_LEVELS`."""
+
+DEFAULT_CONTAMINATION_LEVEL = "normal cleanliness"
+"""Level used where the registry chooses none: the reference condition of
+:func:`oil_life_factor`, so eC then neither raises nor lowers a_oil (a choice of this
+project, common practice, no source)."""
+
 CONTAMINATION_FACTOR_GUIDE = {
     # level: ((low, high) for dm < 100 mm, (low, high) for dm >= 100 mm)
     "extreme": ((1.0, 1.0), (1.0, 1.0)),

@@ -240,6 +240,39 @@ def walther_viscosity_mm2s(temp_c: float | np.ndarray, a: float, b: float) -> np
     return np.where(t_k > 0, nu, np.nan)
 
 
+def temperature_at_viscosity_c(
+    viscosity_mm2s: float | np.ndarray, a: float, b: float
+) -> np.ndarray:
+    """Temperature at which an ASTM D341 line reaches a kinematic viscosity.
+
+    Parameters
+    ----------
+    viscosity_mm2s : float or array
+        Kinematic viscosity [mm2/s], > 0.
+    a, b : float
+        Line coefficients from :func:`walther_coefficients` [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Temperature [degC]; ``nan`` for a viscosity at or below 0.3 mm2/s (outside the
+        line's form).
+
+    Notes
+    -----
+    ``T = 10^((A - log10(log10(nu + 0.7))) / B) - 273.15``, the inverse of
+    :func:`walther_viscosity_mm2s`.
+
+    References
+    ----------
+    ASTM D341-20, Eqs. (1)-(2).
+    """
+    nu = np.asarray(viscosity_mm2s, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = np.log10(np.log10(nu + WALTHER_OFFSET_MM2S))
+        return 10.0 ** ((a - w) / b) - 273.15
+
+
 def viscosity_index(nu40_mm2s: float | np.ndarray, nu100_mm2s: float | np.ndarray) -> np.ndarray:
     """Viscosity index from kinematic viscosities at 40 and 100 degC.
 

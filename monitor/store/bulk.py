@@ -30,6 +30,7 @@ STORED_COLUMNS = (
     "speed_bands",
     "hours",
     "mean_speed_rpm",
+    "oil_temp_c",
     "hour_meter_start",
     "hour_meter_end",
     "period_end",
@@ -38,7 +39,7 @@ STORED_COLUMNS = (
 
 STORED_SQL = (
     "SELECT h.id, h.component_id, h.upload_id, h.quantity, h.n_pressure, h.n_speed, "
-    "h.pressure_bands, h.speed_bands, h.hours, h.mean_speed_rpm, "
+    "h.pressure_bands, h.speed_bands, h.hours, h.mean_speed_rpm, h.oil_temp_c, "
     "u.hour_meter_start, u.hour_meter_end, u.period_end "
     "FROM histogram h JOIN upload u ON u.id = h.upload_id "
     "WHERE h.component_id IN :ids "
@@ -120,6 +121,7 @@ def batch_from_rows(rows: list) -> Batch:
     if not every:
         n_p, n_s = n_p[keep], n_s[keep]
     code = (is_ps_all[keep].astype(np.int64) << 40) | (n_p << 20) | n_s
+    src = None if every else keep
     codes = np.unique(code)
     groups = [_stored_group(cols, c, code, keep, every and codes.size == 1) for c in codes]
     return Batch(
@@ -129,6 +131,9 @@ def batch_from_rows(rows: list) -> Batch:
         hour_meter_start=np.array(_pick(cols["hour_meter_start"], None if every else keep), float),
         hour_meter_end=np.array(_pick(cols["hour_meter_end"], None if every else keep), float),
         groups=groups,
+        oil_temp_c=np.array(
+            [np.nan if x is None else x for x in _pick(cols["oil_temp_c"], src)], dtype=float
+        ),
     )
 
 

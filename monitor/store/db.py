@@ -55,6 +55,8 @@ site = Table(
     metadata,
     Column("id", Integer, primary_key=True),
     Column("name", String(120), nullable=False, unique=True),
+    # ISO 281 contamination level chosen for the site (wins over the oil's), or NULL
+    Column("contamination_level", String(32)),
 )
 
 oil = Table(
@@ -66,6 +68,7 @@ oil = Table(
     Column("viscosity_index", Float),
     Column("nu40_mm2s", Float),
     Column("nu100_mm2s", Float),
+    Column("contamination_level", String(32)),
 )
 
 component_model = Table(
@@ -93,6 +96,8 @@ component_model = Table(
     Column("bearing_dynamic_load_kn", Float),
     Column("bearing_fatigue_limit_kn", Float),
     Column("bearing_load_at_rated_kn", Float),
+    # operating oil temperature of the oil-condition factor when uploads give none [degC]
+    Column("operating_temp_c", Float),
 )
 
 unit = Table(
@@ -103,6 +108,7 @@ unit = Table(
     Column("site_id", ForeignKey("site.id"), nullable=False),
     Column("machine_type", String(120), nullable=False),
     Column("oil_id", ForeignKey("oil.id"), nullable=False),
+    Column("operating_temp_c", Float),  # overrides the component model's [degC]
 )
 
 component = Table(
@@ -113,6 +119,11 @@ component = Table(
     Column("position", String(40), nullable=False),
     Column("model_id", ForeignKey("component_model.id"), nullable=False),
     Column("serial", String(80)),
+    Column("operating_temp_c", Float),  # overrides the unit's and the model's [degC]
+    # life before the first upload, when no rebuild is recorded: a consumed fraction [-]
+    # or the hour meter of the last known rebuild [h] (at most one of the two)
+    Column("consumed_at_first_upload", Float),
+    Column("last_rebuild_hour_meter", Float),
     UniqueConstraint("unit_id", "position", name="uq_component_unit_position"),
 )
 
@@ -176,6 +187,7 @@ histogram = Table(
     Column("hours", LargeBinary, nullable=False),
     Column("total_hours", Float, nullable=False),
     Column("mean_speed_rpm", Float),
+    Column("oil_temp_c", Float),  # period mean operating oil temperature if given [degC]
     Column("content_sha256", String(64), nullable=False),
     # Stored periods of one component and quantity never overlap, so no two start at the
     # same instant: the index is unique, the last line of defence against a histogram
@@ -226,12 +238,19 @@ ledger = Table(
     Column("relief_hours", Float, nullable=False),
     Column("cutoff_hours", Float, nullable=False),
     Column("relief_heat_kwh", Float, nullable=False),
+    # the oil temperature the oil-condition factor used [degC] and where it came from
+    # (upload, unit, model or none: factor not applied); NULL without bearing data
+    Column("oil_temp_c", Float),
+    Column("oil_factor_source", String(8)),
+    # operating hours in bands where kappa < 0.1 took the aISO table's floor [h]
+    Column("kappa_floor_hours", Float, nullable=False, default=0.0, server_default=text("0")),
     Column("cum_meter_hours", Float, nullable=False, default=0.0),
     Column("cum_hours", Float, nullable=False, default=0.0),
     Column("cum_damage", Float, nullable=False, default=0.0),
     Column("cum_relief_hours", Float, nullable=False, default=0.0),
     Column("cum_cutoff_hours", Float, nullable=False, default=0.0),
     Column("cum_relief_heat_kwh", Float, nullable=False, default=0.0),
+    Column("cum_kappa_floor_hours", Float, nullable=False, default=0.0, server_default=text("0")),
     UniqueConstraint("upload_id", "component_id", name="uq_ledger_upload_component"),
     # The trailing columns are the status read's tie-breaks (latest row at or before a
     # bound), so its ORDER BY ... LIMIT 1 is one index seek without a sort.

@@ -42,14 +42,15 @@ CUM_COLUMNS = {
     "cum_relief_hours": "relief_hours",
     "cum_cutoff_hours": "cutoff_hours",
     "cum_relief_heat_kwh": "relief_heat_kwh",
+    "cum_kappa_floor_hours": "kappa_floor_hours",
 }
 RECOMPUTE_CHUNK = 200  # components per read/compute/write round of recompute
 
-Compute = Callable[["Batch", "ComponentTable", dict[int, pd.DataFrame]], dict[str, np.ndarray]]
-"""The life-model results of a batch: ``compute(batch, table, oil_samples)`` returns one
-array per :data:`METRIC_COLUMNS` name (see :func:`monitor.ledger.metrics.batch_metrics`);
-``oil_samples`` maps a component id to its ISO 4406 samples. Storage computes no
-engineering results itself: the use cases pass this function in."""
+Compute = Callable[["Batch", "ComponentTable"], dict[str, np.ndarray]]
+"""The life-model results of a batch: ``compute(batch, table)`` returns one array per
+:data:`METRIC_COLUMNS` name (see :func:`monitor.ledger.batch_metrics.batch_metrics`, with
+the stored settings it needs already bound). Storage computes no engineering results
+itself: the use cases pass this function in."""
 
 
 # --- component data, looked up once per write ----------------------------------------
@@ -58,15 +59,19 @@ engineering results itself: the use cases pass this function in."""
 def component_table(conn: Connection, ids: list[int] | None = None) -> ComponentTable:
     """The :class:`ComponentTable` of the registry as stored now: every component, or
     those of ``ids``."""
-    c, u, m, o = db.component, db.unit, db.component_model, db.oil
+    c, u, m, o, s = db.component, db.unit, db.component_model, db.oil, db.site
     q = (
         select(
             c.c.id.label("component_id"),
             m.c.id.label("model_id"),
             *[col.label(f"m_{col.name}") for col in m.c if col.name != "id"],
             *[col.label(f"oil_{col.name}") for col in o.c if col.name != "id"],
+            c.c.operating_temp_c.label("c_operating_temp_c"),
+            u.c.operating_temp_c.label("u_operating_temp_c"),
+            s.c.contamination_level.label("site_contamination_level"),
         )
         .join(u, c.c.unit_id == u.c.id)
+        .join(s, u.c.site_id == s.c.id)
         .join(m, c.c.model_id == m.c.id)
         .join(o, u.c.oil_id == o.c.id)
     )
@@ -86,31 +91,13 @@ def component_table(conn: Connection, ids: list[int] | None = None) -> Component
     )
 
 
-def _samples_for(conn: Connection, batch: Batch, table: ComponentTable) -> dict:
-    """ISO 4406 samples of the batch's components whose model has bearing data."""
-    wanted = sorted(table.bearing_components() & set(np.unique(batch.component_id).tolist()))
-    return _oil_samples(conn, wanted) if wanted else {}
-
-
 def _metrics(conn: Connection, batch: Batch, table: ComponentTable, compute: Compute) -> dict:
     """The caller's life-model results of ``batch`` (the store computes none itself)."""
-    values = compute(batch, table, _samples_for(conn, batch, table))
+    values = compute(batch, table)
     missing = set(METRIC_COLUMNS) - set(values)
     if missing:
         raise ValueError(f"ledger compute returned no {sorted(missing)}")
     return values
-
-
-def _oil_samples(conn: Connection, comp_ids: list[int]) -> dict[int, pd.DataFrame]:
-    """ISO 4406 samples of some components, keyed by component id."""
-    t = db.reading
-    if not comp_ids:
-        return {}
-    q = select(t.c.component_id, t.c.taken_at, t.c.iso4406).where(
-        t.c.component_id.in_(comp_ids), t.c.iso4406.is_not(None)
-    )
-    df = pd.DataFrame(conn.execute(q).all(), columns=["component_id", "taken_at", "iso4406"])
-    return {int(c): g for c, g in df.groupby("component_id")}
 
 
 _KEY_COLUMNS = ("upload_id", "component_id", "period_end", "hour_meter_end", "meter_hours")
@@ -161,8 +148,8 @@ def _ledger_columns(
 def write_upload(conn: Connection, file_id: int, plan, compute: Compute) -> None:  # noqa: ANN001
     """Store a checked file's uploads, histograms, readings and their ledger rows.
 
-    New ISO 4406 samples change the oil-condition factor of later uploads, so the
-    ledger of a component with bearing data that got a new sample is rebuilt whole.
+    ISO 4406 samples only suggest a contamination level (the registry chooses it), so a
+    new sample changes no ledger row.
     """
     with page_cache(conn, INGEST_CACHE_KIB):
         _write_upload(conn, file_id, plan, compute)
@@ -197,10 +184,7 @@ def _write_upload(conn: Connection, file_id: int, plan, compute: Compute) -> Non
     )
     _insert_histograms(conn, plan, every)
     _insert_readings(conn, file_id, plan)
-    resampled = sorted({c for r, c in plan.readings if r.iso4406} & table.bearing_components())
-    if resampled:
-        rebuild_components(conn, resampled, table, compute)
-    chosen = _select_for_ledger(plan, upload_ids, set(resampled))
+    chosen = _select_for_ledger(plan, upload_ids, set())
     if not chosen.size:
         return
     if chosen.size == len(every):  # one histogram per upload and component, none skipped
@@ -248,6 +232,7 @@ HISTOGRAM_COLUMNS = [
     "hours",
     "total_hours",
     "mean_speed_rpm",
+    "oil_temp_c",
     "content_sha256",
 ]
 
@@ -285,6 +270,7 @@ def _insert_histograms(conn: Connection, plan, batch: Batch) -> None:  # noqa: A
         _blobs(b.hours, b.hours_offset),
         total.tolist(),
         [None if x != x else x for x in b.mean_speed_rpm.tolist()],  # nan: not given
+        [None if x != x else x for x in b.oil_temp_c.tolist()],
         plan.sha,
     ]
     insert_columns(conn, t, HISTOGRAM_COLUMNS, cols)

@@ -71,7 +71,8 @@ def upsert_registry(conn: Connection, reg: Registry) -> UpsertCounts:
     counts = UpsertCounts()
     ids: dict[tuple[str, str], int] = {}
     for s in reg.sites:
-        ids["site", s.name], c = _upsert(conn, db.site, {"name": s.name}, {})
+        vals = {"contamination_level": s.contamination_level}
+        ids["site", s.name], c = _upsert(conn, db.site, {"name": s.name}, vals)
         counts += c
     for o in reg.oils:
         vals = {f.name: getattr(o, f.name) for f in dataclasses.fields(OilSpec)}
@@ -90,15 +91,25 @@ def upsert_registry(conn: Connection, reg: Registry) -> UpsertCounts:
 def _upsert_unit(conn: Connection, u: UnitSpec, ids: dict) -> UpsertCounts:
     site_id = ids.get(("site", u.site)) or _id_by_name(conn, db.site, u.site)
     oil_id = ids.get(("oil", u.oil)) or _id_by_name(conn, db.oil, u.oil)
-    vals = {"site_id": site_id, "machine_type": u.machine_type, "oil_id": oil_id}
+    vals = {
+        "site_id": site_id,
+        "machine_type": u.machine_type,
+        "oil_id": oil_id,
+        "operating_temp_c": u.operating_temp_c,
+    }
     unit_id, counts = _upsert(conn, db.unit, {"tag": u.tag}, vals)
     comp_ids: dict[str, int] = {}
     for cs in u.components:
         model_id = ids.get(("model", cs.model)) or _id_by_name(conn, db.component_model, cs.model)
         key = {"unit_id": unit_id, "position": cs.position}
-        comp_ids[cs.position], c = _upsert(
-            conn, db.component, key, {"model_id": model_id, "serial": cs.serial}
-        )
+        vals = {
+            "model_id": model_id,
+            "serial": cs.serial,
+            "operating_temp_c": cs.operating_temp_c,
+            "consumed_at_first_upload": cs.consumed_at_first_upload,
+            "last_rebuild_hour_meter": cs.last_rebuild_hour_meter,
+        }
+        comp_ids[cs.position], c = _upsert(conn, db.component, key, vals)
         counts += c
     for ev in u.service:
         counts += _upsert_service(conn, unit_id, comp_ids, ev)
@@ -175,10 +186,15 @@ def components_frame(conn: Connection) -> pd.DataFrame:
             c.c.id.label("component_id"),
             c.c.position,
             c.c.serial,
+            c.c.operating_temp_c.label("c_operating_temp_c"),
+            c.c.consumed_at_first_upload,
+            c.c.last_rebuild_hour_meter,
             u.c.id.label("unit_id"),
             u.c.tag.label("unit"),
             u.c.machine_type,
+            u.c.operating_temp_c.label("u_operating_temp_c"),
             s.c.name.label("site"),
+            s.c.contamination_level.label("site_contamination_level"),
             m.c.id.label("model_id"),
             *model_cols,
             *oil_cols,
@@ -240,6 +256,16 @@ def put_settings(conn: Connection, values: dict) -> None:
     for key, value in values.items():
         conn.execute(t.delete().where(t.c.key == key))
         conn.execute(t.insert().values(key=key, value=json.dumps(value)))
+
+
+def delete_settings(conn: Connection, keys: list[str]) -> None:
+    """Remove stored settings (absent keys are ignored)."""
+    conn.execute(db.setting.delete().where(db.setting.c.key.in_(list(keys))))
+
+
+def any_ledger_row(conn: Connection) -> bool:
+    """True once the damage ledger holds a row."""
+    return conn.execute(select(db.ledger.c.id).limit(1)).first() is not None
 
 
 def table_counts(conn: Connection) -> dict[str, int]:

@@ -41,8 +41,13 @@ TOTALS = (
     "cum_relief_hours",
     "cum_cutoff_hours",
     "cum_relief_heat_kwh",
+    "cum_kappa_floor_hours",
 )
 """Running-total columns of the ledger read at each point."""
+
+EARLY_DAYS = 30
+"""Logged days whose damage rate charges the hours between the last known rebuild and the
+first upload (``last_rebuild_hour_meter`` in the registry) [d]."""
 
 _POINTS = ("now", "base", "win", "month")
 
@@ -73,6 +78,40 @@ def _latest_id(comp_id, bound):  # noqa: ANN001, ANN202 - SQL expressions
         .correlate_except(la)
         .scalar_subquery()
     )
+
+
+def _first_meter(comp_id):  # noqa: ANN001, ANN202 - SQL expressions
+    """Correlated sub-select: hour meter at the start of the component's first ledger row."""
+    la = db.ledger.alias()
+    return (
+        select(la.c.hour_meter_end - la.c.meter_hours)
+        .where(la.c.component_id == comp_id)
+        .order_by(la.c.period_end, la.c.upload_id)
+        .limit(1)
+        .correlate_except(la)
+        .scalar_subquery()
+    )
+
+
+def early_rates(conn: Connection, component_ids: list[int]) -> pd.DataFrame:
+    """Damage [-] and hour-meter hours [h] of each component's first :data:`EARLY_DAYS`
+    logged days (rows whose period ends within that many days of the first row's end)."""
+    t = db.ledger
+    out = []
+    for cid in component_ids:
+        q = (
+            select(t.c.period_end, t.c.damage, t.c.meter_hours)
+            .where(t.c.component_id == int(cid))
+            .order_by(t.c.period_end, t.c.upload_id)
+            .limit(40 * EARLY_DAYS)
+        )
+        df = pd.DataFrame(conn.execute(q).all(), columns=["period_end", "damage", "meter_hours"])
+        if df.empty:
+            continue
+        ends = pd.to_datetime(df["period_end"], utc=True)
+        early = df[ends <= ends.iloc[0] + pd.Timedelta(days=EARLY_DAYS)]
+        out.append((int(cid), early["damage"].sum(), early["meter_hours"].sum()))
+    return pd.DataFrame(out, columns=["component_id", "early_damage", "early_meter_hours"])
 
 
 def _point_ids(as_of: datetime, utilisation_days: float, component_ids: list[int] | None):
@@ -160,6 +199,9 @@ def ledger_points(
             a.c.hour_meter_end.label(f"{p}_hour_meter_end"),
         ]
         cols += [a.c[t].label(f"{p}_{t}") for t in TOTALS]
+    cols += [now.c.oil_temp_c.label("now_oil_temp_c")]
+    cols += [now.c.oil_factor_source.label("now_oil_factor_source")]
+    cols += [_first_meter(pts.c.component_id).label("first_hour_meter")]
     frm = pts.outerjoin(now, now.c.id == pts.c.now_id)
     frm = frm.outerjoin(aliases["base"], aliases["base"].c.id == pts.c.base_id)
     frm = frm.outerjoin(aliases["month"], aliases["month"].c.id == pts.c.month_id)
@@ -192,6 +234,8 @@ def _typed(rows: list[tuple], names: list[str]) -> pd.DataFrame:
             out[name] = pd.to_datetime(values, utc=True, format="ISO8601")
         elif name == "component_id":
             out[name] = np.array(col, dtype=np.int64)
+        elif name == "now_oil_factor_source":
+            out[name] = np.array(col, dtype=object)
         else:
             out[name] = np.array(col, dtype=float)
     return pd.DataFrame(out).sort_values("component_id", ignore_index=True)
@@ -240,7 +284,10 @@ def status_inputs(
         utilisation_days=utilisation_days,
         component_ids=ids,
     )
-    return comps.merge(pts, on="component_id", how="left").reset_index(drop=True)
+    out = comps.merge(pts, on="component_id", how="left").reset_index(drop=True)
+    charged = out.loc[out["last_rebuild_hour_meter"].notna(), "component_id"].tolist()
+    early = early_rates(conn, charged)
+    return out.merge(early, on="component_id", how="left")
 
 
 def readings_in_life(
@@ -493,4 +540,5 @@ def histogram_from_row(r) -> Histogram:  # noqa: ANN001 - a row mapping
         speed_low_rpm=s_lo,
         speed_high_rpm=s_hi,
         mean_speed_rpm=r["mean_speed_rpm"],
+        oil_temp_c=r.get("oil_temp_c"),
     )

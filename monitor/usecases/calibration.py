@@ -20,10 +20,10 @@ import pandas as pd
 
 from monitor.fleet import calibration as cal
 from monitor.fleet.lives import component_lives
-from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, life_reads, rating_changes
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, locked_transaction
+from monitor.usecases.settings import ledger_compute, mark_ledger_current
 
 calibration_records = cal.table_records
 """Rows of a :func:`calibrate` table as plain dicts (NaN as None), ready for JSON."""
@@ -184,7 +184,8 @@ def accept_life_factor(
     with locked_transaction(engine) as conn:
         model_id = rating_changes.model_ids(conn)[model]
         when = rating_changes.insert(conn, model_id, change["factor_new"], proposed_by, summary)
-        ledger_rows.recompute(conn, batch_metrics)
+        ledger_rows.recompute(conn, ledger_compute(conn))
+        mark_ledger_current(conn)
     return {**change, "accepted_at": when}
 
 
@@ -200,7 +201,8 @@ def undo_life_factor(engine: Engine, model: str) -> dict:
         undone = rating_changes.undo_latest(conn, model_id)
         if undone is None:
             raise DomainError(f"no life factor is in force for {model}: nothing to undo")
-        ledger_rows.recompute(conn, batch_metrics)
+        ledger_rows.recompute(conn, ledger_compute(conn))
+        mark_ledger_current(conn)
         after = rating_changes.factors_by_model_id(conn).get(model_id, 1.0)
     return {
         "component_model": model,

@@ -7,10 +7,10 @@ import hashlib
 from monitor.domain.records import Problem
 from monitor.domain.vocabulary import plural
 from monitor.ingest import registry
-from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, locked_transaction
+from monitor.usecases.settings import ledger_compute, mark_ledger_current
 
 REGISTRY_SUFFIXES = (".yaml", ".yml")
 
@@ -27,7 +27,9 @@ def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.Ups
         counts = queries.upsert_registry(conn, reg)
         queries.save_registry_document(conn, sha, name, text)
         if counts.created or counts.updated:
-            ledger_rows.recompute(conn, batch_metrics)  # ratings or rebuild dates may have changed
+            # ratings, oil temperatures or contamination levels may have changed
+            ledger_rows.recompute(conn, ledger_compute(conn))
+            mark_ledger_current(conn)
     return counts
 
 

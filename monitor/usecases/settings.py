@@ -1,8 +1,10 @@
-"""Use cases of the status settings: read, validate and store them."""
+"""Use cases of the stored settings: read, validate and store them; the ledger's compute
+function with the settings it depends on; whether the ledger is stale."""
 
 from __future__ import annotations
 
 import copy
+from functools import partial
 
 from monitor.store import db, queries
 from monitor.store.db import Engine
@@ -21,8 +23,27 @@ DEFAULT_SETTINGS: dict = {
     "case_drain_temp_distance_k": 20.0,
     "case_drain_dp_ratio_min": 0.5,
     "case_drain_dp_ratio_max": 2.0,
+    "band_pressure": "midpoint",
+    "life_before_data_h": 50.0,
 }
-"""Status settings used where none are stored (``save_settings`` stores overrides)."""
+"""Settings used where none are stored (``save_settings`` stores overrides)."""
+
+LEDGER_SETTINGS = ("band_pressure",)
+"""Settings the damage ledger is computed with: changing one makes the ledger stale until
+``recompute`` (the others act when a status is read)."""
+
+BAND_PRESSURE_CHOICES = ("midpoint", "upper")
+"""The pressure a histogram band stands for: its midpoint, or its upper edge (cautious)."""
+
+STALE_KEY = "ledger_stale"
+"""Stored flag: the ledger was computed with other settings (or an older model) than
+those in force; ``recompute`` clears it."""
+
+RECOMPUTE_NEEDED = (
+    "the damage ledger was computed with other settings than those now in force: run "
+    "`drivespan recompute` (or Recompute on the dashboard's Settings page) so that every "
+    "upload is counted with the new setting"
+)
 
 
 def get_settings(engine: Engine) -> dict:
@@ -60,12 +81,48 @@ def save_settings(engine: Engine, values: dict) -> dict:
             f"unknown setting(s) {', '.join(unknown)}: known are {', '.join(DEFAULT_SETTINGS)}"
         )
     params = _status_params(merged)  # raises DomainError on a bad value
-    checked = {k: getattr(params, k) for k in values if k != "status_limits"}
+    ledger = {k: _ledger_setting(k, values[k]) for k in LEDGER_SETTINGS if k in values}
+    checked = {k: getattr(params, k) for k in values if k != "status_limits" and k not in ledger}
     if "status_limits" in values:
         checked["status_limits"] = dict(params.status_limits)
+    before = get_settings(engine)
     with db.transaction(engine) as conn:
-        queries.put_settings(conn, checked)  # numbers stored as numbers, not as text
+        queries.put_settings(conn, {**checked, **ledger})  # numbers stored as numbers
+        if any(before[k] != v for k, v in ledger.items()) and queries.any_ledger_row(conn):
+            queries.put_settings(conn, {STALE_KEY: True})
     return get_settings(engine)
+
+
+def _ledger_setting(key: str, value: object) -> str:
+    if key == "band_pressure" and value not in BAND_PRESSURE_CHOICES:
+        raise DomainError(
+            f"band_pressure must be one of {', '.join(BAND_PRESSURE_CHOICES)} (the pressure a "
+            f"histogram band stands for), got {value!r}"
+        )
+    return str(value)
+
+
+def ledger_stale(engine: Engine) -> bool:
+    """True when the ledger must be recomputed to follow the settings in force."""
+    with engine.connect() as conn:
+        return bool(queries.get_settings(conn).get(STALE_KEY, False))
+
+
+def ledger_band_pressure(conn) -> str:  # noqa: ANN001 - a Connection
+    """The band pressure rule in force (stored setting, else the default)."""
+    return queries.get_settings(conn).get("band_pressure", DEFAULT_SETTINGS["band_pressure"])
+
+
+def ledger_compute(conn) -> partial:  # noqa: ANN001 - a Connection
+    """The ledger's compute function with the stored settings it depends on bound."""
+    from monitor.ledger.batch_metrics import batch_metrics
+
+    return partial(batch_metrics, band_pressure=ledger_band_pressure(conn))
+
+
+def mark_ledger_current(conn) -> None:  # noqa: ANN001 - a Connection
+    """After a whole recompute: the ledger follows the settings in force."""
+    queries.delete_settings(conn, [STALE_KEY])
 
 
 def _positive(settings: dict, key: str, what: str) -> float:
@@ -124,6 +181,7 @@ def _status_params(settings: dict):  # noqa: ANN202 - fleet.StatusParams
         case_drain_step_factor=step,
         heavy_relief_fraction=frac,
         min_wear_readings=n,
+        life_before_data_h=_positive(settings, "life_before_data_h", "an hour meter reading"),
     )
 
 

@@ -16,7 +16,7 @@ from monitor.store import queries, status_reads
 from monitor.store import traces as trace_rows
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError
-from monitor.usecases.settings import _params_for
+from monitor.usecases.settings import _params_for, ledger_band_pressure
 
 
 def fleet_status(
@@ -102,6 +102,9 @@ class UnitReport:
     uploads: pd.DataFrame
     summary: list
     traces: pd.DataFrame = field(default_factory=lambda: fleet.trace_list([], []))
+    assumptions: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=fleet.ASSUMPTION_COLUMNS)
+    )
 
 
 def _unknown_unit(conn, tag: str) -> DomainError:  # noqa: ANN001
@@ -151,6 +154,7 @@ def unit_report(
             for row in inputs.to_dict("records")
         }
         history = status_reads.service_history(conn, unit["id"])
+        band_pressure = ledger_band_pressure(conn)
         uploads = status_reads.recent_uploads(conn, unit["id"], t)
     info = {k: unit[k] for k in ("tag", "site", "machine_type", "oil")}
     return UnitReport(
@@ -161,6 +165,9 @@ def unit_report(
         uploads=uploads,
         summary=fleet.unit_summary(status, params),
         traces=fleet.trace_list(stored["position"].tolist(), docs),
+        assumptions=fleet.assumption_table(
+            status, band_pressure, {p: d.oil_samples for p, d in details.items()}
+        ),
     )
 
 

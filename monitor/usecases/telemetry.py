@@ -14,12 +14,14 @@ import logging
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
+import numpy as np
+
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
 from monitor.ingest import parse, registry, stream
 from monitor.ingest.common import MAX_PROBLEMS
 from monitor.ingest.limits import STREAM_THRESHOLD_BYTES
-from monitor.ledger.batch_metrics import batch_metrics
+from monitor.ledger.batch_metrics import batch_metrics, oil_temp_problems
 from monitor.store import checks, db, ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import (
@@ -32,6 +34,7 @@ from monitor.usecases.common import (
     locked_transaction,
 )
 from monitor.usecases.registry import REGISTRY_SUFFIXES, import_registry
+from monitor.usecases.settings import ledger_compute, mark_ledger_current
 
 TELEMETRY_SUFFIXES = (".csv", ".json", ".txt")
 WRITE_ATTEMPTS = 2
@@ -76,6 +79,8 @@ def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> F
     if queries.file_stored(conn, parsed.content_sha256):
         return FileResult(name, DUPLICATE)
     plan = checks.plan_upload(conn, parsed)
+    if not plan.problems:
+        plan.problems.extend(_oil_temp_problems(conn, plan, name))
     if plan.problems:
         return FileResult(name, REJECTED, problems=tuple(plan.problems))
     result = FileResult(
@@ -89,8 +94,18 @@ def _check_and_store(conn, parsed: ParsedFile, name: str, *, dry_run: bool) -> F
         file_id = queries.insert_file(
             conn, parsed.content_sha256, name, plan.n_histograms, len(plan.readings)
         )
-        ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
+        ledger_rows.write_upload(conn, file_id, plan, ledger_compute(conn))
     return result
+
+
+def _oil_temp_problems(conn, plan, name: str) -> list[Problem]:  # noqa: ANN001
+    """Upload oil temperatures outside the sensible range of each drive's oil."""
+    temps = plan.batch.oil_temp_c
+    if not np.isfinite(temps).any():
+        return []
+    table = ledger_rows.component_table(conn, sorted({int(c) for c in plan.component_id}))
+    lines = [None] * len(temps) if plan.batch.line is None else plan.batch.line.tolist()
+    return oil_temp_problems(temps, plan.component_id, lines, table, name)
 
 
 def _units(parsed: ParsedFile) -> set[str]:
@@ -312,4 +327,6 @@ def recompute(engine: Engine, progress: Callable[[int, int], None] | None = None
 
     Holds the store's write lock, so no upload is stored meanwhile."""
     with locked_transaction(engine) as conn:
-        return ledger_rows.recompute(conn, batch_metrics, progress=progress)
+        n = ledger_rows.recompute(conn, ledger_compute(conn), progress=progress)
+        mark_ledger_current(conn)
+        return n

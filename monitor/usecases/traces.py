@@ -21,11 +21,11 @@ from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem
 from monitor.ingest.trace import TraceSettings, read_trace, trace_histograms
 from monitor.ingest.trace_summary import read_sidecar, stored_summary
-from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import checks, db, ledger_rows, queries
 from monitor.store import traces as trace_rows
 from monitor.store.db import Engine
 from monitor.usecases.common import ACCEPTED, DUPLICATE, REJECTED, FileResult
+from monitor.usecases.settings import ledger_compute
 
 DEFAULT_MAX_GAP_S = 2.0
 """Longest interval between samples counted as logged time [s]; longer ones are gaps,
@@ -240,7 +240,7 @@ def _store_locked(
         if plan.problems:
             return _reject(name, plan.problems)
         file_id = queries.insert_file(conn, parsed.content_sha256, name, plan.n_histograms, 0)
-        ledger_rows.write_upload(conn, file_id, plan, batch_metrics)
+        ledger_rows.write_upload(conn, file_id, plan, ledger_compute(conn))
         trace_rows.insert_summary(conn, file_id, component_id, json.dumps(doc))
     return TraceFileResult(
         name, ACCEPTED, histograms=plan.n_histograms, skipped=plan.skipped, kind="trace", trace=doc
