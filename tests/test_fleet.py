@@ -396,3 +396,10 @@ def test_unit_summary_names_the_settings_used():
     assert "3 trended case-drain readings give a wear trend but no 95 % range" in text
     wide = fleet.unit_summary(s, fleet.StatusParams(case_drain_temp_distance_k=25.0))
     assert "more than 25 K" in "\n".join(wide)
+
+
+def test_every_flag_has_words_for_people():
+    # tables and pages show FLAG_WORDS; a flag without words would show its raw key
+    from monitor.domain.vocabulary import FLAG_WORDS
+
+    assert set(fleet.FLAGS) <= set(FLAG_WORDS)

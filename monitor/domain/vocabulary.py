@@ -20,6 +20,9 @@ FLAG_WORDS = {
     "heavy_relief": "heavy relief use",
     "few_wear_readings": "few drain readings",
     "wear_readings_off_reference": "drain readings off test conditions",
+    "oil_factor_not_applied": "oil factor not applied",
+    "kappa_below_range": "oil too thin for ISO 281 (floor used)",
+    "life_before_data_unknown": "life before first upload unknown",
 }
 """How each status flag (the ``flags`` keys of ``rank``) reads in tables and pages."""
 
