@@ -270,8 +270,9 @@ def test_fleet_import_of_utf16_is_one_clear_refusal(sqlite_url, tmp_path):
 
     f = tmp_path / "fleet.yaml"
     f.write_bytes((DATA / "fleet.yaml").read_text().encode("utf-16"))
+    CliRunner().invoke(cli.main, ["init", "--db", sqlite_url])
     res = CliRunner().invoke(cli.main, ["fleet", "import", str(f), "--db", sqlite_url])
-    assert res.exit_code == 1 and "not UTF-8 text" in res.output
+    assert res.exit_code == 1 and "not UTF-8" in res.output and "Traceback" not in res.output
     assert not isinstance(res.exception, UnicodeDecodeError)
 
 

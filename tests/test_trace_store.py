@@ -214,7 +214,7 @@ def test_cli_options_sidecar_and_rejection(tmp_path, loader_trace):
     res = run("ingest-trace", str(path), "--started-at", START, "--db", url)
     assert res.exit_code == 0, res.output
     assert (
-        "accepted, 2 histogram(s)" in res.stdout
+        "accepted, 2 histograms" in res.stdout
         and "note: The pump has a pressure cut-off" in res.stdout
     )
     res = run("ingest-trace", str(path), "--started-at", START, "--db", url)

@@ -9,6 +9,7 @@ import click
 
 from monitor import usecases
 from monitor.cli.common import _print_results, db_option, domain_errors, main
+from monitor.domain.vocabulary import plural
 
 
 def _sidecar(path: Path) -> dict:
@@ -23,7 +24,7 @@ def _echo_trace(doc: dict) -> None:
     peak = doc.get("max_high_side_bar")
     click.echo(
         f"  {doc['samples']} samples over {doc['duration_s']:.1f} s from {doc['period_start']}"
-        f", {doc['gap_count']} gap(s) left out ({doc['gap_total_s']:.1f} s)"
+        f", {plural(doc['gap_count'], 'gap')} left out ({doc['gap_total_s']:.1f} s)"
         + (f", peak {peak:.1f} bar" if peak is not None else "")
     )
     cycles = doc.get("cycles")
