@@ -5,8 +5,6 @@ from __future__ import annotations
 import hashlib
 
 from monitor.domain.records import Problem
-from monitor.ingest import registry
-from monitor.ledger.batch_metrics import batch_metrics
 from monitor.store import ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, locked_transaction
@@ -16,6 +14,11 @@ REGISTRY_SUFFIXES = (".yaml", ".yml")
 
 def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.UpsertCounts:
     """Import a fleet registry file (idempotent upsert); raise DomainError if it is bad."""
+    # loaded here: units (pint) and the life models are not needed by has_registry, which
+    # every status command calls
+    from monitor.ingest import registry
+    from monitor.ledger.batch_metrics import batch_metrics
+
     try:
         text = data.decode("utf-8-sig") if isinstance(data, bytes) else data
     except UnicodeDecodeError:

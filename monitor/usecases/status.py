@@ -35,9 +35,13 @@ def fleet_status(
     params = _params_for(engine, reliability_pct, rate_window_h)
     as_of = as_of or _today()
     t = fleet.as_of_instant(as_of)
+    if site is None:
+        inputs, readings = status_reads.fleet_reads(
+            engine, t, rate_window_h=params.rate_window_h, utilisation_days=params.utilisation_days
+        )
+        return fleet.fleet_status(inputs, readings, as_of, params)
     with engine.connect() as conn:
-        if site is not None:
-            _check_site(conn, site)
+        _check_site(conn, site)
         inputs = status_reads.status_inputs(
             conn,
             t,
@@ -45,8 +49,7 @@ def fleet_status(
             utilisation_days=params.utilisation_days,
             site=site,
         )
-        ids = inputs["component_id"].tolist() if site is not None else None
-        readings = status_reads.readings_in_life(conn, t, ids)
+        readings = status_reads.readings_in_life(conn, t, inputs["component_id"].tolist())
     return fleet.fleet_status(inputs, readings, as_of, params)
 
 
