@@ -20,13 +20,12 @@ Conventions
 
 from __future__ import annotations
 
-from concurrent.futures import ThreadPoolExecutor
 from datetime import UTC, datetime, timedelta
 from itertools import chain
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import Connection, Engine, and_, case, func, literal, null, select
+from sqlalchemy import Connection, and_, case, func, literal, null, select
 
 from monitor.domain.records import Histogram
 from monitor.domain.vocabulary import MISSING_REASON
@@ -323,32 +322,6 @@ def _float_matrix(conn: Connection, q, width: int) -> np.ndarray:  # noqa: ANN00
     if flat is None:
         return np.array(_plain_rows(conn, q), dtype=float).reshape(-1, width)
     return flat.reshape(-1, width)
-
-
-def fleet_reads(
-    engine: Engine, as_of: datetime, *, rate_window_h: float, utilisation_days: float = 30.0
-) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """:func:`status_inputs` and :func:`readings_in_life` of the whole fleet, read side by
-    side on two connections (the readings in a worker thread).
-
-    The database driver lets go of the interpreter lock while the database steps through
-    a query, so the ledger seeks of one read and the readings scan of the other overlap
-    with each other's conversion to Python values. Each read is one statement, as before,
-    so neither sees less of the store than when they ran one after the other.
-    """
-    as_of = _utc(as_of)
-
-    def readings() -> pd.DataFrame:
-        with engine.connect() as conn:
-            return readings_in_life(conn, as_of)
-
-    with ThreadPoolExecutor(1, thread_name_prefix="readings") as pool:
-        later = pool.submit(readings)
-        with engine.connect() as conn:
-            inputs = status_inputs(
-                conn, as_of, rate_window_h=rate_window_h, utilisation_days=utilisation_days
-            )
-        return inputs, later.result()
 
 
 def _plain_rows(conn: Connection, q) -> list[tuple]:  # noqa: ANN001 - a select

@@ -35,13 +35,9 @@ def fleet_status(
     params = _params_for(engine, reliability_pct, rate_window_h)
     as_of = as_of or _today()
     t = fleet.as_of_instant(as_of)
-    if site is None:
-        inputs, readings = status_reads.fleet_reads(
-            engine, t, rate_window_h=params.rate_window_h, utilisation_days=params.utilisation_days
-        )
-        return fleet.fleet_status(inputs, readings, as_of, params)
     with engine.connect() as conn:
-        _check_site(conn, site)
+        if site is not None:
+            _check_site(conn, site)
         inputs = status_reads.status_inputs(
             conn,
             t,
@@ -49,7 +45,8 @@ def fleet_status(
             utilisation_days=params.utilisation_days,
             site=site,
         )
-        readings = status_reads.readings_in_life(conn, t, inputs["component_id"].tolist())
+        ids = inputs["component_id"].tolist() if site is not None else None
+        readings = status_reads.readings_in_life(conn, t, ids)
     return fleet.fleet_status(inputs, readings, as_of, params)
 
 
