@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import fcntl
 import itertools
+import pickle
 from datetime import date
 from pathlib import Path
 
@@ -49,8 +51,28 @@ GOLDEN_END = date(2026, 12, 1)
 
 
 @pytest.fixture(scope="session")
-def full_demo(tmp_path_factory):
-    """The demo fleet at full scale, built once per test run (about 30 s)."""
+def full_demo(tmp_path_factory, worker_id):
+    """The demo fleet at full scale, built once per test run (about 30 s) and shared by
+    every module that reads it; tests must not change it (a rejected upload is fine).
+
+    Under pytest-xdist the first worker to get here builds it in the run's common temporary
+    folder, under a file lock; the others wait and read the same store."""
     from monitor.usecases.demo import build_demo
 
-    return build_demo(tmp_path_factory.mktemp("full-demo") / "demo", end_date=GOLDEN_END)
+    if worker_id == "master":  # no xdist
+        return build_demo(tmp_path_factory.mktemp("full-demo") / "demo", end_date=GOLDEN_END)
+    root = tmp_path_factory.getbasetemp().parent  # shared by the run's workers
+    with (root / "full-demo.lock").open("a+b") as lock:
+        fcntl.flock(lock, fcntl.LOCK_EX)
+        done = root / "full-demo.pickle"
+        if not done.exists():
+            demo = build_demo(root / "full-demo" / "demo", end_date=GOLDEN_END)
+            done.write_bytes(pickle.dumps(demo))
+        return pickle.loads(done.read_bytes())
+
+
+@pytest.fixture(scope="session")
+def worker_id(request) -> str:
+    """pytest-xdist's worker name ("gw0", ...), or "master" in a plain run (the same
+    fixture as xdist's, so the suite also runs without the plugin)."""
+    return getattr(request.config, "workerinput", {}).get("workerid", "master")

@@ -1,15 +1,16 @@
 """The demo's stories, read through drivespan's own outputs.
 
-One demo is built per module with :func:`monitor.usecases.demo.build_demo` (generate, create a
-SQLite store, import the registry, ingest every export) on a fixed end date and a
-share of the fleet (every story unit and every unit with a due role among the first
-units of each site is kept). The checks then use only what a planner would see:
-``usecases.fleet_status`` at the demo's as-of date and ``service_plan.make_plan``.
+The shared demo fleet of the test run (``full_demo`` in tests/conftest.py: the whole fleet
+built by :func:`monitor.usecases.demo.build_demo` — generate, create a SQLite store,
+import the registry, ingest every export — on a fixed end date) is read only through
+what a planner would see: ``usecases.fleet_status`` at the demo's as-of date and
+``service_plan.make_plan``. The stories are placed relative to the end date, so they
+read the same on any end date.
 """
 
 from __future__ import annotations
 
-from datetime import date, timedelta
+from datetime import timedelta
 
 import pandas as pd
 import pytest
@@ -18,10 +19,8 @@ from demo_fleet.scenario import DUE_ROLES
 from monitor import usecases
 from monitor.store import db, queries
 from monitor.usecases import plan as service_plan
-from monitor.usecases.demo import build_demo
+from tests.conftest import GOLDEN_END
 
-END = date(2025, 6, 30)
-SCALE = 0.3
 BANDS = ("act now", "due soon", "plan ahead", "healthy")
 
 
@@ -33,8 +32,8 @@ def _band(remaining_h: float) -> str:
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    return build_demo(tmp_path_factory.mktemp("stories") / "demo", units_scale=SCALE, end_date=END)
+def demo(full_demo):
+    return full_demo
 
 
 @pytest.fixture(scope="module")
@@ -61,7 +60,7 @@ def _rows(status: pd.DataFrame, tag: str) -> pd.DataFrame:
 
 
 def test_as_of_is_the_day_after_the_end_date(demo):
-    assert demo.as_of == END + timedelta(days=1)
+    assert demo.as_of == GOLDEN_END + timedelta(days=1)
 
 
 BROKEN = "broken_export.csv"

@@ -3,20 +3,15 @@ the story in demo_fleet/README.md."""
 
 from __future__ import annotations
 
-from datetime import date
-
 import pytest
 
 from monitor import usecases
-from monitor.usecases.demo import build_demo
 
 
 @pytest.fixture(scope="module")
-def small_demo(tmp_path_factory):
-    return build_demo(
-        tmp_path_factory.mktemp("d") / "demo", units_scale=0.0, years=0.3,
-        end_date=date(2026, 12, 1),
-    )  # fmt: skip
+def small_demo(full_demo):
+    """The shared demo fleet (tests/conftest.py); its traces do not depend on its size."""
+    return full_demo
 
 
 def test_demo_traces_tell_the_relief_stall_and_the_cutoff_hold(small_demo):

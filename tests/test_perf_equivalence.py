@@ -344,14 +344,25 @@ def test_ingest_stores_what_the_records_say(sqlite_url):
     engine.dispose()
 
 
-def test_readings_matrix_with_and_without_nulls():
+def test_readings_matrix_with_and_without_nulls(sqlite_url):
     # The fast path (no NULL) and the fallback (a NULL test condition) give np.array's floats.
+    from sqlalchemy import text
+
     rows = [(1, 10.0, 1.5, 250.0, 50.0), (2, 11.0, 1.25, 240.0, 45.5)]
-    np.testing.assert_array_equal(status_reads._float_matrix(rows, 5), np.array(rows, dtype=float))
+    q = text("SELECT a, b, c, d, e FROM t ORDER BY a")
+    engine = db.make_engine(sqlite_url)
+    with engine.begin() as conn:
+        conn.exec_driver_sql("CREATE TABLE t (a INTEGER, b REAL, c REAL, d REAL, e REAL)")
+        assert status_reads._float_matrix(conn, q, 5).shape == (0, 5)
+        conn.exec_driver_sql("INSERT INTO t VALUES (?, ?, ?, ?, ?)", rows)
+        got = status_reads._float_matrix(conn, q, 5)
+        np.testing.assert_array_equal(got, np.array(rows, dtype=float))
+        conn.exec_driver_sql("INSERT INTO t VALUES (3, 12.0, 1.75, NULL, NULL)")
+        got = status_reads._float_matrix(conn, q, 5)
     rows.append((3, 12.0, 1.75, None, None))
-    got = status_reads._float_matrix(rows, 5)
     np.testing.assert_array_equal(got[:, :3], np.array([r[:3] for r in rows], dtype=float))
-    assert np.isnan(got[2, 3:]).all() and status_reads._float_matrix([], 5).shape == (0, 5)
+    assert np.isnan(got[2, 3:]).all() and got.shape == (3, 5)
+    engine.dispose()
 
 
 def test_status_reads_are_index_seeks_without_sorts(sqlite_url):

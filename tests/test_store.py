@@ -21,6 +21,28 @@ def test_upgrade_head_then_alembic_check(db_url):
     engine.dispose()
 
 
+def test_head_read_from_the_revision_files_is_alembics_head(tmp_path, sqlite_url):
+    from alembic.script import ScriptDirectory
+
+    head = ScriptDirectory.from_config(db.alembic_config("sqlite://")).get_current_head()
+    assert db.head_from_files() == head
+    engine = db.make_engine(sqlite_url)
+    assert db.stored_revision(engine) is None  # a new store: upgrade asks Alembic
+    db.upgrade(engine)
+    assert db.stored_revision(engine) == head
+    engine.dispose()
+    # two heads, or a file that does not state its revisions plainly: ask Alembic
+    versions = tmp_path / "m" / "versions"
+    versions.mkdir(parents=True)
+    (versions / "a.py").write_text('revision = "a"\ndown_revision = None\n')
+    (versions / "b.py").write_text('revision: str = "b"\ndown_revision: str | None = "a"\n')
+    assert db.head_from_files(tmp_path / "m") == "b"
+    (versions / "c.py").write_text('revision = "c"\ndown_revision = "a"\n')
+    assert db.head_from_files(tmp_path / "m") is None
+    (versions / "c.py").write_text('revision = "c"\ndown_revision = ("a", "b")\n')
+    assert db.head_from_files(tmp_path / "m") is None
+
+
 def test_sqlite_opens_in_wal_with_foreign_keys(sqlite_url):
     engine = db.make_engine(sqlite_url)
     with engine.connect() as conn:

@@ -83,6 +83,7 @@ def test_installed_wheel_runs_outside_the_checkout(wheel, tmp_path):
     assert str(purelib) in where and str(ROOT) not in where
     cli = [py, "-m", "monitor.cli"]  # what the `drivespan` entry point runs
     _run([*cli, "init", "--db", f"sqlite:///{work / 'fleet.db'}"], work, env)
-    out = _run([*cli, "demo", "--no-dashboard", "--scale", "0.1"], work, env)
-    assert "act now" in out.stdout or "due soon" in out.stdout, out.stdout[-2000:]
+    out = _run([*cli, "demo", "--no-dashboard", "--scale", "0"], work, env)  # story units only
+    assert "ranking as of" in out.stdout and "SW-03" in out.stdout, out.stdout[-2000:]
+    assert "broken_export.csv: rejected" in out.stdout, out.stdout[-2000:]
     assert (work / "drivespan-demo" / "demo.db").exists()

@@ -17,7 +17,6 @@ import math
 from itertools import accumulate
 
 import numpy as np
-from scipy.stats import norm
 
 EXACT_MAX_N = 50
 """Most points for which the null distribution is counted exactly [-]; above it the
@@ -112,6 +111,8 @@ def normal_inversion_cdf(n: int, ties: tuple[int, ...] = ()) -> np.ndarray:
     sum t(t-1)(2t+5)] / 18`` the null variance of Kendall's S with ties in one variable
     (Kendall 1970, ch. 4, from memory).
     """
+    from scipy.stats import norm  # loaded when first needed (0.5 s or more)
+
     pairs = n * (n - 1) // 2 - sum(t * (t - 1) // 2 for t in ties)
     var = (n * (n - 1) * (2 * n + 5) - sum(t * (t - 1) * (2 * t + 5) for t in ties)) / 18.0
     return norm.cdf((np.arange(pairs + 1) + 0.5 - pairs / 2.0) / (math.sqrt(var) / 2.0))

@@ -9,7 +9,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 # fmt: off
 ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500,
@@ -356,6 +355,8 @@ def nu100_for_viscosity_index(nu40_mm2s: float, viscosity_index_target: float) -
             f"viscosity_index_target {viscosity_index_target!r} cannot be reached by an oil "
             f"of {nu40_mm2s} mm2/s at 40 degC with 2 mm2/s or more at 100 degC"
         )
+    from scipy.optimize import brentq  # loaded when first needed (0.3 s or more)
+
     return float(brentq(gap, lo, hi, xtol=1e-10, rtol=1e-12))
 
 

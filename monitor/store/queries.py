@@ -206,7 +206,11 @@ def components_frame(conn: Connection) -> pd.DataFrame:
         .order_by(u.c.tag, c.c.position)
     )
     res = conn.execute(q)
-    return pd.DataFrame(res.fetchall(), columns=list(res.keys()))
+    try:  # every column is a plain number or text: the driver's tuples (no Row objects)
+        rows = res.cursor.fetchall() if res.cursor is not None else []
+        return pd.DataFrame(rows, columns=list(res.keys()))
+    finally:
+        res.close()
 
 
 def model_spec(row: dict | pd.Series) -> ComponentModelSpec:

@@ -6,7 +6,6 @@ import hashlib
 
 from monitor.domain.records import Problem
 from monitor.domain.vocabulary import plural
-from monitor.ingest import registry
 from monitor.store import ledger_rows, queries
 from monitor.store.db import Engine
 from monitor.usecases.common import DomainError, locked_transaction
@@ -17,6 +16,10 @@ REGISTRY_SUFFIXES = (".yaml", ".yml")
 
 def import_registry(engine: Engine, data: bytes | str, name: str) -> queries.UpsertCounts:
     """Import a fleet registry file (idempotent upsert); raise DomainError if it is bad."""
+    # loaded here: units (pint) and the life models are not needed by has_registry, which
+    # every status command calls
+    from monitor.ingest import registry
+
     text = _registry_text(data, name)
     reg, problems = registry.load_registry(text, name)
     if problems or reg is None:

@@ -30,6 +30,7 @@ from __future__ import annotations
 import argparse
 import io
 import json
+import os
 import platform
 import resource
 import sqlite3
@@ -300,11 +301,19 @@ def stage_recompute(args: argparse.Namespace) -> dict:
     from monitor.store import db
 
     engine = db.make_engine(f"sqlite:///{args.db}")
-    t = time.perf_counter()
+    load = os.getloadavg()[0]
+    t, c = time.perf_counter(), time.process_time()
     n = usecases.recompute(engine)
-    dt = time.perf_counter() - t
+    dt, cpu = time.perf_counter() - t, time.process_time() - c
     engine.dispose()
-    return {"ledger_rows": n, "recompute_s": dt, "histograms_per_s": n / dt, "peak_mb": _peak_mb()}
+    return {
+        "ledger_rows": n,
+        "recompute_s": dt,
+        "cpu_s": cpu,
+        "histograms_per_s": n / dt,
+        "load_avg_1min": [load, os.getloadavg()[0]],
+        "peak_mb": _peak_mb(),
+    }
 
 
 def _as_of(args: argparse.Namespace) -> date:
@@ -316,12 +325,14 @@ def stage_rank(args: argparse.Namespace) -> dict:
     from monitor.store import db
 
     engine = db.make_engine(f"sqlite:///{args.db}")
-    times = []
+    times, cpus = [], []
+    load = os.getloadavg()[0]
     for _ in range(args.repeat):
-        t = time.perf_counter()
+        t, c = time.perf_counter(), time.process_time()
         df = usecases.fleet_status(engine, _as_of(args))
         recs = usecases.rank_records(df)
         times.append(time.perf_counter() - t)
+        cpus.append(time.process_time() - c)
     split = _rank_split(engine, _as_of(args))
     events = _rank_with_rebuilds(engine, _as_of(args))
     engine.dispose()
@@ -330,7 +341,11 @@ def stage_rank(args: argparse.Namespace) -> dict:
         "components": len(recs),
         "with_wear_estimate": with_wear,
         "rank_s": min(times),
+        "rank_s_median": float(np.median(times)),
+        "rank_cpu_s_median": float(np.median(cpus)),
         "rank_s_all": times,
+        "rank_cpu_s_all": cpus,
+        "load_avg_1min": [load, os.getloadavg()[0]],
         "split_s": split,
         "with_rebuild_events": events,
         "peak_mb": _peak_mb(),
@@ -342,10 +357,11 @@ def _rank_split(engine, as_of: date) -> dict:  # noqa: ANN001
 
     ``ledger_points`` is the whole ledger read (``status_reads.status_inputs``), of which
     ``components`` (the registry join, ``queries.components_frame``) is timed apart."""
-    from monitor import fleet, usecases
+    from monitor import fleet
     from monitor.store import queries, status_reads
+    from monitor.usecases.settings import _params_for
 
-    params = usecases._params_for(engine, None, None)
+    params = _params_for(engine, None, None)
     t0 = fleet.as_of_instant(as_of)
     best = {
         "ledger_points": np.inf,
@@ -385,10 +401,11 @@ def _rank_with_rebuilds(engine, as_of: date) -> dict:  # noqa: ANN001
     store itself has no service events. Best of 3 of the two reads and the status."""
     from sqlalchemy import text
 
-    from monitor import fleet, usecases
+    from monitor import fleet
     from monitor.store import status_reads
+    from monitor.usecases.settings import _params_for
 
-    params = usecases._params_for(engine, None, None)
+    params = _params_for(engine, None, None)
     t0 = fleet.as_of_instant(as_of)
     best, n_events, df = np.inf, 0, None
     with engine.connect() as conn:
@@ -476,7 +493,6 @@ def run_stage(name: str, args: argparse.Namespace) -> dict:
 
 
 def machine() -> dict:
-    import os
 
     mem = None
     try:
