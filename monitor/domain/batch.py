@@ -3,11 +3,13 @@ use in bulk; canonical units as in :mod:`monitor.domain.records`."""
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 from functools import cached_property
 
 import numpy as np
+import pandas as pd
 
 from monitor.domain.records import Histogram
 
@@ -262,3 +264,24 @@ def _flat(arrays: list) -> np.ndarray:
     if not arrays:
         return np.zeros(0)
     return np.concatenate([np.asarray(a, dtype=float).ravel() for a in arrays])
+
+
+def group_ids(code_arrays: list[np.ndarray]) -> np.ndarray:
+    """Dense int64 id per distinct combination of the code arrays (first-seen order).
+
+    The codes are combined into one mixed-radix key and factorized once; if the key could
+    overflow int64 they are combined pairwise instead (same ids, more passes).
+    """
+    arrays = [np.asarray(c, dtype=np.int64) for c in code_arrays]
+    radix = [int(c.max(initial=0)) + 1 for c in arrays[1:]]
+    if math.prod([int(arrays[0].max(initial=0)) + 1, *radix]) < 2**62:
+        key = arrays[0].copy()
+        for c, m in zip(arrays[1:], radix, strict=True):
+            key *= m
+            key += c
+        return pd.factorize(key)[0].astype(np.int64, copy=False)
+    gid = arrays[0]
+    for c, m in zip(arrays[1:], radix, strict=True):
+        gid, _ = pd.factorize(gid * m + c)
+        gid = gid.astype(np.int64)
+    return gid

@@ -7,7 +7,6 @@ canonical units, and every check adds to one :class:`ProblemList`. The field che
 
 from __future__ import annotations
 
-import math
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -15,6 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from monitor.domain.batch import group_ids  # noqa: F401 - part of this module's interface
 from monitor.domain.records import Problem
 from monitor.ingest import units as U
 from monitor.ingest.limits import (
@@ -347,27 +347,6 @@ def _all_valid(v: np.ndarray, kind: str | None, required: bool, minimum: float, 
     if not required:
         ok |= np.isnan(v)
     return bool(ok.all())
-
-
-def group_ids(code_arrays: list[np.ndarray]) -> np.ndarray:
-    """Dense int64 id per distinct combination of the code arrays (first-seen order).
-
-    The codes are combined into one mixed-radix key and factorized once; if the key could
-    overflow int64 they are combined pairwise instead (same ids, more passes).
-    """
-    arrays = [np.asarray(c, dtype=np.int64) for c in code_arrays]
-    radix = [int(c.max(initial=0)) + 1 for c in arrays[1:]]
-    if math.prod([int(arrays[0].max(initial=0)) + 1, *radix]) < 2**62:
-        key = arrays[0].copy()
-        for c, m in zip(arrays[1:], radix, strict=True):
-            key *= m
-            key += c
-        return pd.factorize(key)[0].astype(np.int64, copy=False)
-    gid = arrays[0]
-    for c, m in zip(arrays[1:], radix, strict=True):
-        gid, _ = pd.factorize(gid * m + c)
-        gid = gid.astype(np.int64)
-    return gid
 
 
 def where_text(t: Table, r: int, f: str) -> str:

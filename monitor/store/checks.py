@@ -16,10 +16,9 @@ import numpy as np
 import pandas as pd
 from sqlalchemy import Connection, and_, select
 
-from monitor.domain.batch import HistogramBatch, utc_datetimes
+from monitor.domain.batch import HistogramBatch, group_ids, utc_datetimes
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem, Reading
-from monitor.ingest.common import group_ids
 from monitor.store import db
 from monitor.store.bulk import runs_bytes
 

@@ -19,9 +19,9 @@ import numpy as np
 import pandas as pd
 from sqlalchemy import Connection, bindparam, delete, select, text
 
+from monitor.domain.batch import group_ids
 from monitor.domain.records import QUANTITY_PRESSURE_SPEED
 from monitor.domain.specs import ComponentModelSpec
-from monitor.ingest.common import group_ids
 from monitor.ledger.batch import Batch, ComponentTable, batch_from_columns
 from monitor.store import db, queries, rating_changes
 from monitor.store.bulk import (
