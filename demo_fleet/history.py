@@ -45,10 +45,10 @@ SILENT_DAYS = 42
 BACKLOG_GAP_DAYS = 90
 """A unit with due roles gets no automatic rebuild in the days before its last
 role rebuild [d], so its service history does not show two rebuilds in a row."""
-FIELD_B10 = {"DS-P46": 1.0, "DS-P90": 0.35, "DS-M110": 1.0}
+FIELD_B10 = {"DS-P46": 1.0, "DS-P90": 0.2, "DS-M110": 1.0}
 """B10 of the consumed bearing life at which a component of each model really fails [-]
 (invented field behaviour): 1.0 means the rating is right; DS-P90 pumps built with a batch
-of undersized swashplate saddle bushes fail at about a third of their rated life."""
+of undersized swashplate saddle bushes fail at about a fifth of their rated life."""
 FIELD_SHAPE = 1.5
 """Weibull shape of those field failures [-] (invented)."""
 RATE_WINDOW_H = 500.0

@@ -23,6 +23,8 @@ def test_short_model_gets_a_life_factor_below_one(demo_table):
     assert row["suggested_life_factor"] is not None
     assert 0.0 < float(row["suggested_life_factor"]) < 1.0
     assert float(row["suggested_low"]) < float(row["suggested_life_factor"])
+    # the shortfall is clear: even the upper bound of the factor lies below the rating
+    assert float(row["suggested_high"]) < 1.0
 
 
 def test_agreeing_model_shows_no_evidence_against_its_rating(demo_table):
