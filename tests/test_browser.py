@@ -8,9 +8,6 @@ under ``test-output/`` (git-ignored).
 from __future__ import annotations
 
 import re
-import socket
-import time
-import urllib.request
 from datetime import date, timedelta
 from pathlib import Path
 
@@ -20,35 +17,12 @@ from dashboards import launch
 from monitor import usecases
 from monitor.store import queries
 from tests import dashboard_fleet as fx
+from tests.browser_support import CHROMIUM, FLAGS, free_port, wait_healthy
 
 pytestmark = pytest.mark.browser
 
 ROOT = Path(__file__).resolve().parent.parent
 SHOTS = ROOT / "test-output"
-CHROMIUM = "/usr/bin/chromium"
-FLAGS = [
-    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-]  # fmt: skip
-
-
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def wait_healthy(port: int, proc, timeout_s: float = 90.0) -> None:
-    deadline = time.monotonic() + timeout_s
-    while time.monotonic() < deadline:
-        if proc.poll() is not None:
-            raise RuntimeError(f"dashboard exited with code {proc.returncode}")
-        try:
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health", timeout=2):
-                return
-        except OSError:
-            time.sleep(0.5)
-    raise TimeoutError(f"dashboard on port {port} not healthy after {timeout_s} s")
 
 
 @pytest.fixture(scope="module")

@@ -8,7 +8,6 @@ benchmarks, not here.
 
 from __future__ import annotations
 
-import json
 import time
 from pathlib import Path
 
@@ -23,6 +22,7 @@ from monitor.ingest.limits import (
 )
 from monitor.ingest.parse import parse_file
 from monitor.ingest.registry import load_registry
+from tests.benchmarks.bench_json import site_json as big_json
 
 DATA = Path(__file__).parent / "data"
 HIST = (DATA / "hist_pressure.csv").read_bytes()
@@ -90,33 +90,6 @@ def test_out_of_range_dates_are_refused_not_wrapped():
 
 
 # --- a large JSON: linear time -----------------------------------------------------------
-
-
-def big_json(n_bands: int, per_hist: int = 10) -> bytes:
-    """A site export of ``n_bands`` bands: daily two-loop histograms of invented units."""
-    docs = []
-    for k in range(n_bands // per_hist):
-        day, pos = divmod(k, 2)
-        start = f"2025-{1 + day // 28 % 12:02d}-{1 + day % 28:02d}T06:00:00Z"
-        docs.append(
-            {
-                "unit": f"BX-{day // 336}",
-                "period_start": start,
-                "period_end": start.replace("T06", "T18"),
-                "hour_meter_start": 1000 + day * 12.0,
-                "hour_meter_end": 1000 + day * 12.0 + 10,
-                "histograms": [
-                    {
-                        "position": ("left", "right")[pos],
-                        "quantity": "pressure",
-                        "pressure_unit": "bar",
-                        "pressure_edges": [i * 40 for i in range(per_hist + 1)],
-                        "hours": [1.0] * per_hist,
-                    }
-                ],
-            }
-        )
-    return json.dumps(docs).encode()
 
 
 def test_json_of_40000_bands_parses_within_seconds():

@@ -22,39 +22,18 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import socket
 import statistics
 import sys
 import time
-import urllib.request
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-CHROMIUM = "/usr/bin/chromium"
-FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-sync"]
+from tests.browser_support import CHROMIUM, FLAGS, free_port, wait_healthy  # noqa: E402
+
 ROWS = "[data-testid='stDataFrame'] [role='row']"
 RUNNING = "() => !document.querySelector(\"[data-testid='stStatusWidget']\")"
-
-
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def wait_healthy(port: int, proc, timeout_s: float = 120.0) -> None:  # noqa: ANN001
-    deadline = time.monotonic() + timeout_s
-    while time.monotonic() < deadline:
-        if proc.poll() is not None:
-            raise RuntimeError(f"dashboard exited with code {proc.returncode}")
-        try:
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health", timeout=2):
-                return
-        except OSError:
-            time.sleep(0.05)
-    raise TimeoutError(f"dashboard not healthy after {timeout_s} s")
 
 
 def render(browser, url: str) -> float:  # noqa: ANN001
