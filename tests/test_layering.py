@@ -65,3 +65,25 @@ def test_no_module_is_longer_than_a_reader_can_hold():
         if (n := len(p.read_text(encoding="utf-8").splitlines())) > MAX_LINES
     }
     assert not long, f"split these modules (over {MAX_LINES} lines): {long}"
+
+
+def test_ingesting_a_file_in_canonical_units_loads_no_pint(tmp_path):
+    # pint's import and unit definitions cost about a second per process; a file whose
+    # columns are already in bar, L/min, degC and rpm needs no conversion, so no pint.
+    code = (
+        "import sys; from monitor.ingest import parse; "
+        "p = parse.parse_file(open(sys.argv[1], 'rb').read(), 'x.csv'); "
+        "assert not p.problems, p.problems; "
+        "print(len(p.histograms), 'pint' in sys.modules)"
+    )
+    csv = tmp_path / "x.csv"
+    csv.write_text(
+        "unit,position,period_start,period_end,hour_meter_start,hour_meter_end,quantity,"
+        "pressure_low_bar,pressure_high_bar,hours\n"
+        "QX-1,left,2026-01-01T00:00Z,2026-01-02T00:00Z,10,12,pressure,0,100,1.5\n"
+        "QX-1,left,2026-01-01T00:00Z,2026-01-02T00:00Z,10,12,pressure,100,200,0.5\n"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code, str(csv)], capture_output=True, text=True, cwd=ROOT
+    )
+    assert out.stdout.split() == ["1", "False"], out.stdout + out.stderr

@@ -17,10 +17,19 @@ from functools import lru_cache
 
 import numpy as np
 import numpy.typing as npt
-import pint
 
-UREG = pint.UnitRegistry()
-"""The one pint registry of the package (used at the edge only)."""
+
+@lru_cache(maxsize=1)
+def unit_registry():  # noqa: ANN201 - a pint.UnitRegistry
+    """The one pint registry of the package (used at the edge only).
+
+    Built on first use: importing pint and reading its unit definitions takes about a
+    second, and a file whose columns are already in the canonical units never needs it.
+    """
+    import pint
+
+    return pint.UnitRegistry()
+
 
 PRESSURE = "pressure"
 FLOW = "flow"
@@ -178,10 +187,13 @@ def linear_factors(kind: str, spelling: str) -> tuple[float, float]:
     short = normalise_unit(kind, spelling)
     src = _PINT_NAMES[short]
     dst = _PINT_CANONICAL[kind]
+    if src == dst:  # already canonical: no conversion, and no pint to load
+        return 1.0, 0.0
+    ureg = unit_registry()
     if kind != TEMPERATURE:
-        return float(UREG.Quantity(1.0, src).to(dst).magnitude), 0.0
-    scale = UREG.Quantity(1.0, "delta_" + src).to("delta_" + dst).magnitude
-    offset = UREG.Quantity(0.0, src).to(dst).magnitude
+        return float(ureg.Quantity(1.0, src).to(dst).magnitude), 0.0
+    scale = ureg.Quantity(1.0, "delta_" + src).to("delta_" + dst).magnitude
+    offset = ureg.Quantity(0.0, src).to(dst).magnitude
     return float(scale), float(offset)
 
 
