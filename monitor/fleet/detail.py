@@ -226,7 +226,7 @@ def assumption_table(
 def _oil_sentence(r: Mapping) -> str | None:
     """What the oil-condition factor used, in words (None without bearing data)."""
     src = r.get("oil_factor_source")
-    if src is None:
+    if not isinstance(src, str):  # None, or NaN where the drive has no ledger row yet
         return None
     where = {
         "upload": "the upload's period mean",
