@@ -12,9 +12,8 @@ from monitor.domain.batch import HistogramBatch
 from monitor.domain.records import QUANTITY_PRESSURE_SPEED, Histogram
 from monitor.domain.specs import ComponentModelSpec
 from monitor.ledger.metrics import Metrics, OilCondition, has_bearing_data, metrics_arrays
-from monitor.store import db
+from monitor.store import blocks, db
 from monitor.store.checks import batch_shas
-from monitor.store.status_reads import histogram_from_row
 
 
 def _stack(hs: list[Histogram], attr: str) -> np.ndarray:
@@ -63,22 +62,49 @@ def _metrics_same_shape(
 
 
 def stored_histograms(conn: Connection, component_ids: list[int]) -> tuple[list, list]:
-    """Stored histograms of some components as (Histogram, component_id) with upload ids.
+    """Stored histograms of some components as (Histogram, component_id) with upload ids,
+    in ledger order (component, period end, upload, store order).
 
-    One :class:`Histogram` per row: for detail views and checks, not for bulk work.
+    One :class:`Histogram` per histogram: for detail views and checks, not for bulk work.
     """
-    t, u = db.histogram, db.upload
-    q = (
-        select(t, u.c.hour_meter_start, u.c.hour_meter_end, u.c.period_end.label("u_end"))
-        .join(u, u.c.id == t.c.upload_id)
-        .where(t.c.component_id.in_(component_ids))
-        .order_by(t.c.component_id, u.c.period_end, t.c.upload_id, t.c.id)
-    )
-    out, keys = [], []
-    for r in conn.execute(q).mappings():
-        out.append((histogram_from_row(r), r["component_id"]))
-        keys.append(r["upload_id"])
-    return out, keys
+    stored = blocks.of_components(conn, component_ids)
+    b = stored.batch
+    order = np.lexsort((stored.seq, stored.upload_id, b.period_end_ns, stored.component_id))
+    hs = b.histograms(order)
+    comps = stored.component_id[order].tolist()
+    return list(zip(hs, comps, strict=True)), stored.upload_id[order].tolist()
+
+
+def stored_histogram_rows(conn: Connection) -> list[dict]:
+    """Every stored histogram as one row of the table that held them before revision
+    0007 (one row per histogram), without its id, in store order."""
+    ids = [int(c) for c in conn.execute(select(db.component.c.id)).scalars()]
+    stored = blocks.of_components(conn, ids)
+    b = stored.batch
+    rows = []
+    for i, h in enumerate(b.histograms()):
+        speed = None
+        if h.speed_low_rpm is not None:
+            speed = db.pack(np.r_[h.speed_low_rpm, h.speed_high_rpm])
+        rows.append(
+            {
+                "upload_id": int(stored.upload_id[i]),
+                "component_id": int(stored.component_id[i]),
+                "quantity": h.quantity,
+                "period_start": h.period_start,
+                "period_end": h.period_end,
+                "n_pressure": len(h.pressure_low_bar),
+                "n_speed": 0 if speed is None else len(h.speed_low_rpm),
+                "pressure_bands": db.pack(np.r_[h.pressure_low_bar, h.pressure_high_bar]),
+                "speed_bands": speed,
+                "hours": db.pack(h.hours),
+                "total_hours": float(np.sum(h.hours)),
+                "mean_speed_rpm": h.mean_speed_rpm,
+                "oil_temp_c": h.oil_temp_c,
+                "content_sha256": stored.sha[i],
+            }
+        )
+    return rows
 
 
 def histogram_sha(h: Histogram) -> str:

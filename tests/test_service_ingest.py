@@ -13,6 +13,7 @@ from sqlalchemy import select
 
 from monitor import usecases
 from monitor.store import db, queries
+from tests import reference_paths
 
 DATA = Path(__file__).parent / "data"
 HEADER = (
@@ -236,14 +237,10 @@ def test_csv_semicolon_and_json_store_identical_histograms(tmp_path):
         usecases.import_registry(eng, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
         assert usecases.upload(eng, (DATA / name).read_bytes(), name).status == "accepted"
         with eng.connect() as conn:
-            t = db.histogram
-            blobs.append(
-                conn.execute(
-                    select(t.c.pressure_bands, t.c.hours, t.c.content_sha256).order_by(
-                        t.c.component_id
-                    )
-                ).all()
+            rows = sorted(
+                reference_paths.stored_histogram_rows(conn), key=lambda r: r["component_id"]
             )
+            blobs.append([(r["pressure_bands"], r["hours"], r["content_sha256"]) for r in rows])
         eng.dispose()
     assert blobs[0] == blobs[1]
 

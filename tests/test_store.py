@@ -7,14 +7,14 @@ import pytest
 from alembic import command
 from sqlalchemy import inspect, text
 
-from monitor.store import db
+from monitor.store import db, queries
 
 
 def test_upgrade_head_then_alembic_check(db_url):
     engine = db.make_engine(db_url)
     db.upgrade(engine)
     tables = set(inspect(engine).get_table_names())
-    assert {"unit", "component", "histogram", "ledger", "reading", "upload"} <= tables
+    assert {"unit", "component", "histogram_block", "ledger", "reading", "upload"} <= tables
     # alembic check raises if the models and the migrations disagree
     command.check(db.alembic_config(db_url))
     db.upgrade(engine)  # a second upgrade is a no-op
@@ -99,7 +99,7 @@ def test_migration_0003_removes_second_copies_and_makes_them_impossible(db_url):
         assert usecases.upload(engine, (data / name).read_bytes(), name).status == "accepted"
     with engine.connect() as conn:
         want = pd.read_sql_query(select(db.ledger).order_by(db.ledger.c.id), conn)
-        n_hist = conn.execute(text("SELECT count(*) FROM histogram")).scalar()
+        n_hist = queries.table_counts(conn)["histogram"]
     engine.dispose()
     command.downgrade(db.alembic_config(db_url), "0002")
     engine = db.make_engine(db_url)
@@ -109,16 +109,17 @@ def test_migration_0003_removes_second_copies_and_makes_them_impossible(db_url):
     engine.dispose()
     engine = usecases.init_db(db_url)  # upgrade head
     with engine.connect() as conn:
-        assert conn.execute(text("SELECT count(*) FROM histogram")).scalar() == n_hist
+        assert queries.table_counts(conn)["histogram"] == n_hist
         assert conn.execute(text("SELECT count(*) FROM upload WHERE file_id = 99")).scalar() == 0
         got = pd.read_sql_query(select(db.ledger).order_by(db.ledger.c.id), conn)
     # the copies' ledger rows are gone and the running totals are those of one copy (the
     # columns of 0006 were dropped on the way down to 0002 and come back empty)
     keep = [c for c in want.columns if c not in AFTER_0002]
     pd.testing.assert_frame_equal(got[keep], want[keep], rtol=1e-12)
+    # since 0007 the histograms are kept in blocks: a block stored twice is refused
     with pytest.raises(exc.IntegrityError):
         with engine.begin() as conn:
-            _store_a_second_copy(conn)
+            _store_a_second_block_copy(conn)
     engine.dispose()
 
 
@@ -146,12 +147,49 @@ def _store_a_second_copy(conn) -> None:  # noqa: ANN001
         new = conn.execute(
             db.upload.insert().values({**_without_id(up), "file_id": 99})
         ).inserted_primary_key[0]
-        for table in (db.histogram, db.ledger):
+        for table in (HISTOGRAM_0002, db.ledger):
             cols = [c for c in table.c if c.name not in AFTER_0002]
             rows = conn.execute(select(*cols).where(table.c.upload_id == up["id"])).mappings()
             for row in rows.all():
                 old = sa_table(table.name, *[sa_column(c.name, c.type) for c in cols])  # at 0002
                 conn.execute(old.insert().values({**_without_id(row), "upload_id": new}))
+
+
+def _store_a_second_block_copy(conn) -> None:  # noqa: ANN001
+    """Every stored histogram block again, under a new file."""
+    from datetime import UTC, datetime
+
+    from sqlalchemy import select
+
+    conn.execute(
+        db.upload_file.insert().values(
+            id=98, sha256="8" * 64, name="copy.csv", received_at=datetime.now(UTC),
+            n_histograms=0, n_readings=0,
+        )
+    )  # fmt: skip
+    t = db.histogram_block
+    for row in conn.execute(select(t)).mappings().all():
+        conn.execute(t.insert().values({**_without_id(row), "file_id": 98}))
+
+
+def _histogram_0002():  # noqa: ANN202
+    """The one-row-per-histogram table as revisions 0002 to 0006 had it (a detached copy)."""
+    from sqlalchemy import column as sa_column
+    from sqlalchemy import table as sa_table
+    from sqlalchemy.types import DateTime, Float, Integer, LargeBinary, String
+
+    ts = DateTime(timezone=True)
+    kinds = {
+        "id": Integer(), "upload_id": Integer(), "component_id": Integer(),
+        "quantity": String(), "period_start": ts, "period_end": ts, "n_pressure": Integer(),
+        "n_speed": Integer(), "pressure_bands": LargeBinary(), "speed_bands": LargeBinary(),
+        "hours": LargeBinary(), "total_hours": Float(), "mean_speed_rpm": Float(),
+        "content_sha256": String(),
+    }  # fmt: skip
+    return sa_table("histogram", *(sa_column(k, v) for k, v in kinds.items()))
+
+
+HISTOGRAM_0002 = _histogram_0002()
 
 
 def _without_id(row) -> dict:  # noqa: ANN001

@@ -20,6 +20,7 @@ from sqlalchemy import select
 from monitor import usecases
 from monitor.ingest import parse, stream
 from monitor.store import db, ledger_rows
+from tests import reference_paths
 from tests.benchmarks.bench_ingest import make_csv, make_registry
 from tests.test_service_ingest import snapshot
 
@@ -59,13 +60,13 @@ def lines_of(data: bytes) -> list[bytes]:
 
 def stored_rows(engine) -> dict:
     """Stored rows without surrogate keys: histograms, uploads, ledger, files, readings."""
-    h, u, led, f, r = db.histogram, db.upload, db.ledger, db.upload_file, db.reading
+    u, led, f, r = db.upload, db.ledger, db.upload_file, db.reading
     with engine.connect() as conn:
-        hist = conn.execute(
-            select(*[c for c in h.c if c.name not in ("id", "upload_id")], u.c.unit_id).join(
-                u, u.c.id == h.c.upload_id
-            )
-        ).all()
+        unit_of = dict(conn.execute(select(u.c.id, u.c.unit_id)).all())
+        hist = [
+            (*(v for k, v in row.items() if k != "upload_id"), unit_of[row["upload_id"]])
+            for row in reference_paths.stored_histogram_rows(conn)
+        ]
         uploads = conn.execute(select(*[c for c in u.c if c.name not in ("id", "file_id")]))
         ledger = conn.execute(
             select(*[c for c in led.c if c.name not in ("id", "upload_id")], u.c.period_start)

@@ -22,7 +22,7 @@ from monitor.store import db
 SQLITE_MAGIC = b"SQLite format 3\x00"
 """The first 16 bytes of every SQLite database file (SQLite file format, section 1.3)."""
 
-REQUIRED_TABLES = ("alembic_version", "unit", "upload_file", "histogram", "ledger")
+REQUIRED_TABLES = ("alembic_version", "unit", "upload_file", "ledger")
 """Tables a file must hold to count as a drivespan store."""
 
 
@@ -102,11 +102,18 @@ def inspect_sqlite_file(path: Path) -> StoreFile:
                 f"version of drivespan does not know (it knows {', '.join(known)}): use the "
                 "drivespan version that made it"
             )
+        if not {"histogram", "histogram_block"} & tables:  # before / since revision 0007
+            raise ValueError(f"{path.name} is not a drivespan store (no histogram table)")
         counts = {
             name: conn.execute(f'SELECT count(*) FROM "{name}"').fetchone()[0]  # noqa: S608
             for name in db.metadata.tables
             if name in tables
         }
+        counts["histogram"] = (
+            conn.execute("SELECT coalesce(sum(n_histograms), 0) FROM histogram_block").fetchone()[0]
+            if "histogram_block" in tables
+            else conn.execute("SELECT count(*) FROM histogram").fetchone()[0]
+        )
     except sqlite3.DatabaseError as e:
         raise ValueError(f"{path.name} cannot be read as a database: {e}") from None
     finally:

@@ -19,7 +19,7 @@ from sqlalchemy import Connection, and_, select
 from monitor.domain.batch import HistogramBatch, group_ids, utc_datetimes
 from monitor.domain.parsed import ParsedFile
 from monitor.domain.records import Problem, Reading
-from monitor.store import db
+from monitor.store import blocks, db
 from monitor.store.bulk import runs_bytes
 
 HOUR_METER_TOLERANCE_H = 0.01
@@ -235,56 +235,43 @@ def _new_histogram_frame(plan: UploadPlan, rows: np.ndarray) -> pd.DataFrame:
 
 
 def _stored_histograms(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
-    t, f, up = db.histogram, db.upload_file, db.upload
-    q = (
-        select(
-            t.c.component_id,
-            t.c.quantity,
-            t.c.period_start.label("start"),
-            t.c.period_end.label("end"),
-            t.c.content_sha256.label("sha"),
-            t.c.upload_id,
-            f.c.name.label("file"),
-        )
-        .join(up, up.c.id == t.c.upload_id)
-        .join(f, f.c.id == up.c.file_id)
-        .where(
-            t.c.component_id.in_([int(x) for x in new["component_id"].unique()]),
-            t.c.period_start < new["end"].max().to_pydatetime(),
-            t.c.period_end > new["start"].min().to_pydatetime(),
-        )
+    """Stored histograms of the new histograms' components that overlap their span."""
+    stored = blocks.overlapping(
+        conn,
+        [int(x) for x in new["component_id"].unique()],
+        new["start"].min().to_pydatetime(),
+        new["end"].max().to_pydatetime(),
     )
-    df = pd.DataFrame(conn.execute(q).all(), columns=list(q.selected_columns.keys()))
-    df["start"] = pd.to_datetime(df["start"], utc=True)
-    df["end"] = pd.to_datetime(df["end"], utc=True)
-    return df
+    names = blocks.file_names(conn, np.unique(stored.file_id).tolist())
+    b = stored.batch
+    return pd.DataFrame(
+        {
+            "component_id": stored.component_id,
+            "quantity": b.quantity,
+            "start": _utc(b.period_start_ns),
+            "end": _utc(b.period_end_ns),
+            "sha": stored.sha,
+            "upload_id": stored.upload_id,
+            "file": [names[i] for i in stored.file_id.tolist()],
+        }
+    )
 
 
 def _early_components(conn: Connection, plan: UploadPlan) -> np.ndarray:
     """Components with a new histogram that starts before the end of the last stored
     histogram of the same quantity; the others cannot overlap a stored period.
 
-    One index seek per component and quantity. Stored periods of one component and
-    quantity never overlap, so the one that starts last also ends last.
+    One index seek per component and quantity.
     """
-    b, t, c = plan.batch, db.histogram, db.component
+    b = plan.batch
     early = []
     for quantity in pd.unique(b.quantity).tolist():
         sel = b.quantity == quantity
         first = pd.Series(b.period_start_ns[sel]).groupby(plan.component_id[sel]).min()
-        last = (
-            select(t.c.period_end)
-            .where(t.c.component_id == c.c.id, t.c.quantity == quantity)
-            .order_by(t.c.period_start.desc())
-            .limit(1)
-            .correlate(c)
-            .scalar_subquery()
-        )
-        q = select(c.c.id, last).where(c.c.id.in_([int(x) for x in first.index]))
-        stored = [(cid, end) for cid, end in conn.execute(q).all() if end is not None]
+        stored = blocks.last_ends(conn, [int(x) for x in first.index], quantity)
         if stored:
-            ids = np.array([cid for cid, _ in stored], dtype=np.int64)
-            ends = pd.DatetimeIndex(pd.to_datetime([e for _, e in stored], utc=True))
+            ids = np.array(list(stored), dtype=np.int64)
+            ends = pd.DatetimeIndex(pd.to_datetime(list(stored.values()), utc=True))
             starts = first.loc[ids].to_numpy()
             early.append(ids[starts < ends.as_unit("ns").asi8])
     return np.unique(np.concatenate(early)) if early else np.zeros(0, dtype=np.int64)

@@ -4,8 +4,9 @@ The store keeps what was uploaded and what the life models made of it; it never
 computes engineering results itself. Reads return pandas DataFrames or plain
 values, so no ORM session ever leaks into the models or the dashboard.
 
-Histogram bands are stored compactly: one row per histogram, its band edges and
-hours as little-endian float64 blobs (see :func:`pack` / :func:`unpack`).
+Histograms are stored in blocks: one row per file (or file part), component and
+quantity, its histograms' periods, meters, bands and hours as little-endian arrays
+(see :mod:`monitor.store.blocks`).
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 from sqlalchemy import (
+    Boolean,
     Column,
     DateTime,
     Engine,
@@ -180,28 +182,42 @@ upload = Table(
     Index("ix_upload_unit_period", "unit_id", "period_start"),
 )
 
-histogram = Table(
-    "histogram",
+# The histograms of one stored file (or file part), component and quantity, as arrays
+# (monitor.store.blocks reads and writes them): one row instead of one per histogram.
+# Each array blob holds one value per histogram, in file order, except the band arrays:
+# their runs lie end to end (n_pressure / n_speed values per histogram), or, with
+# bands_shared, one histogram's bands stand for all. Stored periods of one component and
+# quantity never overlap (checked at ingest under the write lock), so no two blocks of
+# one component and quantity start at the same instant: the unique index refuses a
+# block stored twice.
+histogram_block = Table(
+    "histogram_block",
     metadata,
     Column("id", Integer, primary_key=True),
-    Column("upload_id", ForeignKey("upload.id", ondelete="CASCADE"), nullable=False),
+    Column("file_id", ForeignKey("upload_file.id", ondelete="CASCADE"), nullable=False),
     Column("component_id", ForeignKey("component.id", ondelete="CASCADE"), nullable=False),
     Column("quantity", String(16), nullable=False),
-    Column("period_start", TS, nullable=False),
-    Column("period_end", TS, nullable=False),
-    Column("n_pressure", Integer, nullable=False),
-    Column("n_speed", Integer, nullable=False),
-    Column("pressure_bands", LargeBinary, nullable=False),
-    Column("speed_bands", LargeBinary),
-    Column("hours", LargeBinary, nullable=False),
-    Column("total_hours", Float, nullable=False),
-    Column("mean_speed_rpm", Float),
-    Column("oil_temp_c", Float),  # period mean operating oil temperature if given [degC]
-    Column("content_sha256", String(64), nullable=False),
-    # Stored periods of one component and quantity never overlap, so no two start at the
-    # same instant: the index is unique, the last line of defence against a histogram
-    # stored twice (the checks at ingest run under the write lock, see write_transaction).
-    Index("ix_histogram_component_period", "component_id", "quantity", "period_start", unique=True),
+    Column("n_histograms", Integer, nullable=False),
+    Column("first_start", TS, nullable=False),  # earliest period start of the block
+    Column("last_end", TS, nullable=False),  # latest period end of the block
+    Column("bands_shared", Boolean, nullable=False),
+    Column("upload_id", LargeBinary, nullable=False),  # int64 per histogram
+    Column("period_start_ns", LargeBinary, nullable=False),  # int64 ns since the epoch, UTC
+    Column("period_end_ns", LargeBinary, nullable=False),
+    Column("hour_meter_start", LargeBinary, nullable=False),  # float64 [h]
+    Column("hour_meter_end", LargeBinary, nullable=False),
+    Column("mean_speed_rpm", LargeBinary, nullable=False),  # float64, NaN: not given
+    Column("oil_temp_c", LargeBinary, nullable=False),  # float64 period mean, NaN: not given
+    Column("n_pressure", LargeBinary, nullable=False),  # int32 bands per histogram
+    Column("n_speed", LargeBinary, nullable=False),  # int32, 0 for a pressure histogram
+    Column("pressure_low_bar", LargeBinary, nullable=False),  # float64 runs
+    Column("pressure_high_bar", LargeBinary, nullable=False),
+    Column("speed_low_rpm", LargeBinary, nullable=False),
+    Column("speed_high_rpm", LargeBinary, nullable=False),
+    Column("hours", LargeBinary, nullable=False),  # float64 runs (a matrix row by row)
+    Column("content_sha256", LargeBinary, nullable=False),  # 32-byte digest per histogram
+    Index("ix_histogram_block_first", "component_id", "quantity", "first_start", unique=True),
+    Index("ix_histogram_block_last", "component_id", "quantity", "last_end"),
 )
 
 reading = Table(

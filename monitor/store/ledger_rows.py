@@ -17,23 +17,14 @@ from contextlib import contextmanager
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import Connection, bindparam, delete, select, text
+from sqlalchemy import Connection, delete, select
 
 from monitor.domain.batch import group_ids
 from monitor.domain.records import QUANTITY_PRESSURE_SPEED
 from monitor.domain.specs import ComponentModelSpec
 from monitor.ledger.batch import Batch, ComponentTable, batch_from_columns
-from monitor.store import db, queries, rating_changes
-from monitor.store.bulk import (
-    STORED_SQL,
-    batch_from_rows,
-    bind_times,
-    bind_values,
-    fetch_plain,
-    insert_columns,
-    runs_bytes,
-    update_rows,
-)
+from monitor.store import blocks, db, queries, rating_changes
+from monitor.store.bulk import bind_times, bind_values, insert_columns, ledger_choice, update_rows
 
 CUM_COLUMNS = {
     "cum_meter_hours": "meter_hours",
@@ -124,13 +115,9 @@ def _running_totals(comp: np.ndarray, values: dict[str, np.ndarray]) -> dict:
     return {cum: sums[col].to_numpy() for cum, col in CUM_COLUMNS.items()}
 
 
-def _ledger_columns(
-    conn: Connection, batch: Batch, values: dict, order: np.ndarray, *, raw: bool
-) -> list[list]:
-    """Columns of the ledger rows in ``order`` (``raw``: period ends as stored)."""
-    if raw:
-        ends = [batch.period_end[i] for i in order.tolist()]
-    elif batch.period_end_ns is not None:
+def _ledger_columns(conn: Connection, batch: Batch, values: dict, order: np.ndarray) -> list[list]:
+    """Columns of the ledger rows in ``order``."""
+    if batch.period_end_ns is not None:
         ends = bind_times(conn, db.ledger, "period_end", batch.period_end_ns[order])
     else:
         ends = bind_values(conn, db.ledger, "period_end", [batch.period_end[i] for i in order])
@@ -182,7 +169,7 @@ def _write_upload(conn: Connection, file_id: int, plan, compute: Compute) -> Non
     every = batch_from_columns(
         plan.batch, np.arange(plan.n_histograms), plan.component_id, upload_ids
     )
-    _insert_histograms(conn, plan, every)
+    blocks.insert_blocks(conn, file_id, plan.batch, plan.component_id, upload_ids, plan.sha)
     _insert_readings(conn, file_id, plan)
     chosen = _select_for_ledger(plan, upload_ids, set())
     if not chosen.size:
@@ -217,69 +204,6 @@ def _insert_uploads(conn: Connection, file_id: int, plan) -> np.ndarray:  # noqa
     q = select(t.c.id).where(t.c.file_id == file_id).order_by(t.c.id.desc()).limit(first.size)
     ids = np.array(conn.execute(q).scalars().all()[::-1], dtype=np.int64)
     return ids[plan.upload]
-
-
-HISTOGRAM_COLUMNS = [
-    "upload_id",
-    "component_id",
-    "quantity",
-    "period_start",
-    "period_end",
-    "n_pressure",
-    "n_speed",
-    "pressure_bands",
-    "speed_bands",
-    "hours",
-    "total_hours",
-    "mean_speed_rpm",
-    "oil_temp_c",
-    "content_sha256",
-]
-
-
-def _blobs(values: np.ndarray, bounds: np.ndarray) -> list[bytes]:
-    """:func:`monitor.store.db.pack` of each run ``values[bounds[i]:bounds[i + 1]]``."""
-    return runs_bytes(np.ascontiguousarray(values, dtype="<f8"), bounds)
-
-
-def _insert_histograms(conn: Connection, plan, batch: Batch) -> None:  # noqa: ANN001
-    """Insert one histogram row per histogram of the plan (``batch``: all of them)."""
-    n = plan.n_histograms
-    if not n:
-        return
-    b, t = plan.batch, db.histogram
-    total = np.zeros(n)
-    for g in batch.groups:
-        total[g.rows] = g.hours.reshape(len(g.rows), -1).sum(axis=1)
-    speed: list = [None] * n
-    two_d = np.flatnonzero(b.n_speed > 0)
-    if two_d.size:
-        sub = b.take(two_d)
-        for i, blob in zip(two_d.tolist(), _blobs(*sub.runs(SPEED_BANDS)), strict=True):
-            speed[i] = blob
-    cols = [
-        batch.upload_id.tolist(),
-        plan.component_id.tolist(),
-        b.quantity.tolist(),
-        bind_times(conn, t, "period_start", b.period_start_ns),
-        bind_times(conn, t, "period_end", b.period_end_ns),
-        b.n_pressure.tolist(),
-        b.n_speed.tolist(),
-        _blobs(*b.runs(PRESSURE_BANDS)),
-        speed,
-        _blobs(b.hours, b.hours_offset),
-        total.tolist(),
-        [None if x != x else x for x in b.mean_speed_rpm.tolist()],  # nan: not given
-        [None if x != x else x for x in b.oil_temp_c.tolist()],
-        plan.sha,
-    ]
-    insert_columns(conn, t, HISTOGRAM_COLUMNS, cols)
-
-
-PRESSURE_BANDS = ("pressure_low_bar", "pressure_high_bar")
-"""A histogram row's ``pressure_bands`` blob: its low edges, then its high edges."""
-SPEED_BANDS = ("speed_low_rpm", "speed_high_rpm")
-"""A histogram row's ``speed_bands`` blob: its low edges, then its high edges."""
 
 
 def _insert_readings(conn: Connection, file_id: int, plan) -> None:  # noqa: ANN001
@@ -339,7 +263,7 @@ def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable, comput
         b = np.array([totals[c] for totals in base.values()] + [0.0])[at]
         values[c] = np.empty(len(batch))
         values[c][order] = cum[c] + b
-    cols = _ledger_columns(conn, batch, values, order, raw=False)
+    cols = _ledger_columns(conn, batch, values, order)
     insert_columns(conn, db.ledger, LEDGER_COLUMNS, cols)
     if behind:
         first = pd.Timestamp(int(since[list(behind)].min()), tz="UTC").to_pydatetime()
@@ -476,19 +400,30 @@ def _bulk_phase(conn: Connection) -> Iterator[None]:
 
 def _rebuild(conn: Connection, chunk: list[int], table: ComponentTable, compute: Compute) -> int:
     """Write the ledger rows of some components (none stored yet) from their histograms."""
-    q = text(STORED_SQL).bindparams(bindparam("ids", expanding=True))
-    rows = fetch_plain(conn, q, {"ids": [int(c) for c in chunk]})
-    if not rows:
+    stored = blocks.of_components(conn, chunk)
+    if not len(stored):
         return 0
-    batch = batch_from_rows(rows)
+    batch = ledger_batch(stored)
     values = _metrics(conn, batch, table, compute)
     values["hour_meter_end"] = batch.hour_meter_end
     values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
     values.update(_running_totals(batch.component_id, values))
     order = np.arange(len(batch))
-    cols = _ledger_columns(conn, batch, values, order, raw=True)
+    cols = _ledger_columns(conn, batch, values, order)
     insert_columns(conn, db.ledger, LEDGER_COLUMNS, cols)
     return len(batch)
+
+
+def ledger_batch(stored: blocks.StoredHistograms) -> Batch:
+    """The ledger's histograms of stored ones: one per (component, upload), the last
+    pressure-by-speed matrix if there is one, else the first histogram; in ledger order
+    (component, period end, upload, store order)."""
+    b = stored.batch
+    comp, upload = stored.component_id, stored.upload_id
+    order = np.lexsort((stored.seq, upload, b.period_end_ns, comp))
+    is_ps = b.quantity[order] == QUANTITY_PRESSURE_SPEED
+    rows = order[ledger_choice(comp[order], upload[order], is_ps)]
+    return batch_from_columns(b, rows, comp[rows], upload[rows])
 
 
 def rebuild_components(

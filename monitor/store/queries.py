@@ -16,7 +16,7 @@ import pandas as pd
 from sqlalchemy import Connection, and_, func, select, update
 
 from monitor.domain.specs import ComponentModelSpec, OilSpec, Registry, ServiceSpec, UnitSpec
-from monitor.store import db
+from monitor.store import blocks, db
 
 
 @dataclasses.dataclass(frozen=True)
@@ -273,11 +273,14 @@ def any_ledger_row(conn: Connection) -> bool:
 
 
 def table_counts(conn: Connection) -> dict[str, int]:
-    """Row count of every table (used by tests and the status line)."""
-    return {
+    """Row count of every table (used by tests and the status line), and under
+    ``histogram`` the number of stored histograms (``histogram_block`` rows hold many)."""
+    counts = {
         name: conn.execute(select(func.count()).select_from(table)).scalar()
         for name, table in db.metadata.tables.items()
     }
+    counts["histogram"] = blocks.count(conn)
+    return counts
 
 
 # --- small reads and writes of the use cases -------------------------------------------

@@ -27,9 +27,8 @@ import numpy as np
 import pandas as pd
 from sqlalchemy import Connection, and_, case, func, literal, null, select
 
-from monitor.domain.records import Histogram
 from monitor.domain.vocabulary import MISSING_REASON
-from monitor.store import db, queries
+from monitor.store import blocks, db, queries
 
 LIFE_START_KINDS = ("rebuild", "replacement")
 """Service-event kinds that start a new life of a component."""
@@ -435,18 +434,9 @@ def ledger_rows(
 
 
 def histogram_rows(conn: Connection, component_id: int, upload_ids: list[int]):  # noqa: ANN201
-    """Stored histograms of one component for some uploads (as Histogram records)."""
-    if not upload_ids:
-        return []
-    t, u = db.histogram, db.upload
-    q = (
-        select(t, u.c.hour_meter_start, u.c.hour_meter_end, u.c.period_end.label("u_end"))
-        .join(u, u.c.id == t.c.upload_id)
-        .where(
-            t.c.component_id == int(component_id), t.c.upload_id.in_([int(i) for i in upload_ids])
-        )
-    )
-    return [histogram_from_row(r) for r in conn.execute(q).mappings()]
+    """Stored histograms of one component for some uploads (as Histogram records, in
+    order of quantity and period start)."""
+    return blocks.of_uploads(conn, component_id, upload_ids)
 
 
 def component_readings(conn: Connection, component_id: int, as_of: datetime) -> pd.DataFrame:
@@ -522,30 +512,3 @@ def service_history(conn: Connection, unit_id: int) -> pd.DataFrame:
     df = pd.DataFrame(conn.execute(q).all(), columns=[c.name for c in q.selected_columns])
     df["at"] = pd.to_datetime(df["at"], utc=True)
     return df
-
-
-def histogram_from_row(r) -> Histogram:  # noqa: ANN001 - a row mapping
-    """Rebuild a :class:`Histogram` from a stored ``histogram`` row joined with its upload."""
-    n_p, n_s = r["n_pressure"], r["n_speed"]
-    bands = db.unpack(r["pressure_bands"])
-    s_lo = s_hi = None
-    shape: tuple[int, ...] = (n_p,)
-    if n_s:
-        sb = db.unpack(r["speed_bands"])
-        s_lo, s_hi, shape = sb[:n_s], sb[n_s:], (n_p, n_s)
-    return Histogram(
-        unit="",
-        position="",
-        quantity=r["quantity"],
-        period_start=r["period_start"],
-        period_end=r["u_end"],
-        hour_meter_start=r["hour_meter_start"],
-        hour_meter_end=r["hour_meter_end"],
-        pressure_low_bar=bands[:n_p],
-        pressure_high_bar=bands[n_p:],
-        hours=db.unpack(r["hours"], shape),
-        speed_low_rpm=s_lo,
-        speed_high_rpm=s_hi,
-        mean_speed_rpm=r["mean_speed_rpm"],
-        oil_temp_c=r.get("oil_temp_c"),
-    )

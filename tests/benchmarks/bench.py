@@ -185,24 +185,18 @@ def stage_build(args: argparse.Namespace) -> dict:
     t = time.perf_counter()
     engine = usecases.init_db(f"sqlite:///{path}")
     usecases.import_registry(engine, registry_yaml(args.units), "bench.yaml")
-    engine.dispose()
-    con = sqlite3.connect(path)
-    con.execute("PRAGMA journal_mode=WAL")
-    con.execute("PRAGMA synchronous=OFF")
-    comps = con.execute(
-        "SELECT c.unit_id, c.id FROM component c ORDER BY c.unit_id, c.id"
-    ).fetchall()
+    with engine.connect() as conn:
+        comps = conn.exec_driver_sql(
+            "SELECT c.unit_id, c.id FROM component c ORDER BY c.unit_id, c.id"
+        ).all()
     by_unit: dict[int, list[int]] = {}
     for u, c in comps:
         by_unit.setdefault(u, []).append(c)
-    con.execute(
-        "INSERT INTO upload_file (sha256, name, received_at, n_histograms, n_readings) "
-        "VALUES ('bench', 'bench', ?, 0, 0)",
-        (_ts(datetime.now(UTC)),),
-    )
-    file_id = con.execute("SELECT id FROM upload_file").fetchone()[0]
     days = int(round(365 * args.years))
-    n_hist = _build_uploads(con, by_unit, file_id, days, np.random.default_rng(7))
+    n_hist = _build_uploads(engine, by_unit, days, np.random.default_rng(7))
+    engine.dispose()
+    con = sqlite3.connect(path)
+    file_id = con.execute("SELECT min(id) FROM upload_file").fetchone()[0]
     n_read = _build_readings(con, by_unit, file_id, days, np.random.default_rng(8))
     con.commit()
     con.close()
@@ -215,57 +209,78 @@ def stage_build(args: argparse.Namespace) -> dict:
     }
 
 
-def _build_uploads(con, by_unit: dict, file_id: int, days: int, rng) -> int:  # noqa: ANN001
-    bands = np.concatenate([BANDS_LO, BANDS_HI]).astype("<f8").tobytes()
+MONTH_DAYS = 30
+"""Days per upload file of the built store: its histograms are stored in one block per
+file and component, as monthly exports would leave them."""
+
+
+def _build_uploads(engine, by_unit: dict, days: int, rng) -> int:  # noqa: ANN001
+    """Uploads and histogram blocks of every unit, one upload file per 30 days."""
+    from monitor.domain.batch import HistogramBatch
+    from monitor.store import blocks
+
+    ns = (
+        np.datetime64(START.replace(tzinfo=None), "ns")
+        + np.arange(days + 1) * np.timedelta64(1, "D")
+    ).astype(np.int64)
     stamps = [_ts(START + timedelta(days=d)) for d in range(days + 1)]
-    uid = con.execute("SELECT coalesce(max(id), 0) FROM upload").fetchone()[0]
-    ups, hists, n = [], [], 0
-    for unit_id, cids in by_unit.items():
-        hours = daily_hours(rng, days * len(cids)).reshape(days, len(cids), N_BANDS)
-        meter = np.concatenate([[500.0], 500.0 + np.cumsum(hours[:, 0].sum(axis=1))])
-        for d in range(days):
-            uid += 1
-            ups.append((uid, file_id, unit_id, stamps[d], stamps[d + 1], meter[d], meter[d + 1]))
-            for j, cid in enumerate(cids):
-                h = hours[d, j]
-                hists.append(
-                    (
-                        uid,
-                        cid,
-                        "pressure",
-                        stamps[d],
-                        stamps[d + 1],
-                        N_BANDS,
-                        0,
-                        bands,
-                        None,
-                        h.astype("<f8").tobytes(),
-                        float(h.sum()),
-                        2200.0,
-                        f"{cid}-{d}",
-                    )
-                )
-        if len(hists) >= BATCH:
-            n += _flush(con, ups, hists)
-    return n + _flush(con, ups, hists)
-
-
-def _flush(con, ups: list, hists: list) -> int:  # noqa: ANN001
-    con.executemany(
-        "INSERT INTO upload (id, file_id, unit_id, period_start, period_end, "
-        "hour_meter_start, hour_meter_end) VALUES (?,?,?,?,?,?,?)",
-        ups,
-    )
-    con.executemany(
-        "INSERT INTO histogram (upload_id, component_id, quantity, period_start, "
-        "period_end, n_pressure, n_speed, pressure_bands, speed_bands, hours, "
-        "total_hours, mean_speed_rpm, content_sha256) "
-        "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
-        hists,
-    )
-    n = len(hists)
-    ups.clear()
-    hists.clear()
+    hours = {
+        u: daily_hours(rng, days * len(c)).reshape(days, len(c), N_BANDS)
+        for u, c in by_unit.items()
+    }
+    meters = {u: np.r_[500.0, 500.0 + np.cumsum(h[:, 0].sum(axis=1))] for u, h in hours.items()}
+    uid, n = 0, 0
+    for m0 in range(0, days, MONTH_DAYS):
+        month = range(m0, min(days, m0 + MONTH_DAYS))
+        with engine.begin() as conn:
+            raw = conn.connection.dbapi_connection
+            raw.execute(
+                "INSERT INTO upload_file (sha256, name, received_at, n_histograms, n_readings) "
+                "VALUES (?, ?, ?, 0, 0)",
+                (f"bench-{m0}", f"bench-{m0:04d}.csv", _ts(datetime.now(UTC))),
+            )
+            file_id = raw.execute("SELECT max(id) FROM upload_file").fetchone()[0]
+            ups, comp, upl, day, hrs, meter0, meter1 = [], [], [], [], [], [], []
+            for unit_id, cids in by_unit.items():
+                for d in month:
+                    uid += 1
+                    mt = meters[unit_id]
+                    ups.append((uid, file_id, unit_id, stamps[d], stamps[d + 1], mt[d], mt[d + 1]))
+                    for j, cid in enumerate(cids):
+                        comp.append(cid)
+                        upl.append(uid)
+                        day.append(d)
+                        hrs.append(hours[unit_id][d, j])
+                        meter0.append(mt[d])
+                        meter1.append(mt[d + 1])
+            raw.executemany(
+                "INSERT INTO upload (id, file_id, unit_id, period_start, period_end, "
+                "hour_meter_start, hour_meter_end) VALUES (?,?,?,?,?,?,?)",
+                ups,
+            )
+            k, day = len(comp), np.array(day)
+            batch = HistogramBatch(
+                unit=np.full(k, "", object),
+                position=np.full(k, "", object),
+                quantity=np.full(k, "pressure", object),
+                period_start_ns=ns[day],
+                period_end_ns=ns[day + 1],
+                hour_meter_start=np.array(meter0),
+                hour_meter_end=np.array(meter1),
+                mean_speed_rpm=np.full(k, 2200.0),
+                line=None,
+                n_pressure=np.full(k, N_BANDS, dtype=np.int64),
+                n_speed=np.zeros(k, dtype=np.int64),
+                pressure_low_bar=np.tile(BANDS_LO, k),
+                pressure_high_bar=np.tile(BANDS_HI, k),
+                speed_low_rpm=np.zeros(0),
+                speed_high_rpm=np.zeros(0),
+                hours=np.concatenate(hrs),
+            )
+            digest = rng.bytes(32 * k).hex()
+            shas = [digest[64 * i : 64 * (i + 1)] for i in range(k)]
+            blocks.insert_blocks(conn, file_id, batch, np.array(comp), np.array(upl), shas)
+            n += k
     return n
 
 
