@@ -77,7 +77,8 @@ def stored_histograms(conn: Connection, component_ids: list[int]) -> tuple[list,
 
 def stored_histogram_rows(conn: Connection) -> list[dict]:
     """Every stored histogram as one row of the table that held them before revision
-    0007 (one row per histogram), without its id, in store order."""
+    0007 (one row per histogram), without its id, in store order; its content hash made
+    one histogram at a time by :func:`histogram_sha`."""
     ids = [int(c) for c in conn.execute(select(db.component.c.id)).scalars()]
     stored = blocks.of_components(conn, ids)
     b = stored.batch
@@ -101,7 +102,7 @@ def stored_histogram_rows(conn: Connection) -> list[dict]:
                 "total_hours": float(np.sum(h.hours)),
                 "mean_speed_rpm": h.mean_speed_rpm,
                 "oil_temp_c": h.oil_temp_c,
-                "content_sha256": stored.sha[i],
+                "content_sha256": histogram_sha(h),
             }
         )
     return rows

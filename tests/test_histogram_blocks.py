@@ -30,7 +30,7 @@ from sqlalchemy import inspect, select, text
 
 from monitor import usecases
 from monitor.cli import main
-from monitor.store import blocks, db, queries
+from monitor.store import db, queries
 from tests import reference_paths
 from tests.test_golden_outputs import assert_same_output
 
@@ -215,10 +215,3 @@ def test_blocks_keep_shared_band_edges_once(sqlite_url):
         assert len(np.frombuffer(low, "<f8")) == (3 if shared else 3 * n)
         assert len(np.frombuffer(hours, "<f8")) == 3 * n
     engine.dispose()
-
-
-def test_digests_keep_their_trailing_zero_bytes():
-    digests = ["ab" * 31 + "00", "00" * 32, "0f" * 32]
-    blob = bytes.fromhex("".join(digests))
-    assert blocks.split_digests(blob) == digests
-    assert blocks.split_digests(memoryview(blob)) == digests  # PostgreSQL's bytea

@@ -7,6 +7,10 @@ component, so memory stays bounded) and drops the ``histogram`` table; the downg
 writes one row per histogram again. Ledger, uploads and readings are not touched: the
 ranking, the ledger and duplicate detection are the same before and after.
 
+Blocks keep no content hash: they hold everything a histogram's hash is made of, so
+the checks at ingest compute it when a new file overlaps stored periods; the downgrade
+computes it for the ``content_sha256`` column of revision 0006.
+
 This file keeps its own copy of the block layout of revision 0007, so it converts the
 same way whatever the package's code does later.
 
@@ -15,6 +19,7 @@ Revises: 0006
 Create Date: 2026-12-02 12:00:00
 """
 
+import hashlib
 from datetime import UTC, datetime, timedelta
 
 import numpy as np
@@ -67,7 +72,7 @@ UPLOAD = sa.table(
     sa.column("hour_meter_start", sa.Float()),
     sa.column("hour_meter_end", sa.Float()),
 )
-BLOCK_ARRAYS = [n for n, _ in PER_HISTOGRAM] + list(EDGES) + ["hours", "content_sha256"]
+BLOCK_ARRAYS = [n for n, _ in PER_HISTOGRAM] + list(EDGES) + ["hours"]
 BLOCK = sa.table(
     "histogram_block",
     sa.column("id", sa.Integer()),
@@ -144,7 +149,6 @@ def _block(rows: list) -> dict:
         "last_end": _dt(max(ends)),
         "bands_shared": shared,
         "hours": b"".join(r["hours"] for r in rows),
-        "content_sha256": bytes.fromhex("".join(r["content_sha256"] for r in rows)),
     }
     for name, dt in PER_HISTOGRAM:
         out[name] = np.ascontiguousarray(per[name], dtype=dt).tobytes()
@@ -207,6 +211,17 @@ def upgrade() -> None:
     op.drop_table("histogram")
 
 
+def _digest(quantity: str, start: datetime, end: datetime, meters, arrays: list) -> str:  # noqa: ANN001
+    """A histogram's content hash as revision 0006 stored it: quantity, period, hour
+    meters, then its band edges and hours rounded to 9 decimals."""
+    m = hashlib.sha256()
+    m.update(f"{quantity}|{start.isoformat()}|{end.isoformat()}|".encode())
+    m.update(f"{meters[0]:.6f}|{meters[1]:.6f}|".encode())
+    for a in arrays:
+        m.update(np.round(np.asarray(a, dtype=float), 9).tobytes())
+    return m.hexdigest()
+
+
 def _rows(r) -> list[dict]:  # noqa: ANN001 - a block row mapping
     """The histogram rows (revision 0006) of one block."""
     n = r["n_histograms"]
@@ -216,7 +231,6 @@ def _rows(r) -> list[dict]:  # noqa: ANN001 - a block row mapping
     if r["bands_shared"] and n > 1:
         edges = {k: np.tile(v, n) for k, v in edges.items()}
     hours = np.frombuffer(r["hours"], dtype="<f8")
-    sha = r["content_sha256"]
     p_off = np.r_[0, np.cumsum(n_p)]
     s_off = np.r_[0, np.cumsum(n_s)]
     h_off = np.r_[0, np.cumsum(n_p * np.maximum(n_s, 1))]
@@ -226,13 +240,16 @@ def _rows(r) -> list[dict]:  # noqa: ANN001 - a block row mapping
         s = slice(s_off[i], s_off[i + 1])
         h = hours[h_off[i] : h_off[i + 1]]
         mean, oil = float(per["mean_speed_rpm"][i]), float(per["oil_temp_c"][i])
+        start, end = _dt(per["period_start_ns"][i]), _dt(per["period_end_ns"][i])
+        meters = float(per["hour_meter_start"][i]), float(per["hour_meter_end"][i])
+        band_runs = [edges[k][p if k.startswith("pressure") else s] for k in EDGES]
         out.append(
             {
                 "upload_id": int(per["upload_id"][i]),
                 "component_id": r["component_id"],
                 "quantity": r["quantity"],
-                "period_start": _dt(per["period_start_ns"][i]),
-                "period_end": _dt(per["period_end_ns"][i]),
+                "period_start": start,
+                "period_end": end,
                 "n_pressure": int(n_p[i]),
                 "n_speed": int(n_s[i]),
                 "pressure_bands": _f8(
@@ -245,7 +262,7 @@ def _rows(r) -> list[dict]:  # noqa: ANN001 - a block row mapping
                 "total_hours": float(np.sum(h)),
                 "mean_speed_rpm": None if mean != mean else mean,
                 "oil_temp_c": None if oil != oil else oil,
-                "content_sha256": sha[32 * i : 32 * (i + 1)].hex(),
+                "content_sha256": _digest(r["quantity"], start, end, meters, [*band_runs, h]),
             }
         )
     return out

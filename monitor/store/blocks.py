@@ -42,9 +42,6 @@ PER_HISTOGRAM = (
 EDGES = ("pressure_low_bar", "pressure_high_bar", "speed_low_rpm", "speed_high_rpm")
 """Block arrays of band edges (runs of n_pressure or n_speed values per histogram)."""
 
-DIGEST_BYTES = 32
-"""Length of one histogram's content hash (SHA-256) in the ``content_sha256`` blob."""
-
 BLOCK_COLUMNS = [
     "file_id",
     "component_id",
@@ -56,7 +53,6 @@ BLOCK_COLUMNS = [
     *(name for name, _ in PER_HISTOGRAM),
     *EDGES,
     "hours",
-    "content_sha256",
 ]
 """Columns written per block, in order."""
 
@@ -64,13 +60,16 @@ BLOCK_COLUMNS = [
 @dataclass
 class StoredHistograms:
     """Stored histograms as columns: ``batch`` (unit and position left empty) and, per
-    histogram, its ``component_id``, ``upload_id``, ``sha`` (hex digest), ``file_id`` and
-    ``seq`` (its place in store order: block id, then place in the block)."""
+    histogram, its ``component_id``, ``upload_id``, ``file_id`` and ``seq`` (its place in
+    store order: block id, then place in the block).
+
+    No content hash is stored: a block holds everything a histogram's hash is made of,
+    so the checks at ingest hash the few stored histograms a new file overlaps when they
+    need them (:func:`monitor.store.checks.batch_shas`)."""
 
     batch: HistogramBatch
     component_id: np.ndarray
     upload_id: np.ndarray
-    sha: list[str]
     file_id: np.ndarray
     seq: np.ndarray
 
@@ -84,7 +83,6 @@ class StoredHistograms:
             batch=self.batch.take(rows),
             component_id=self.component_id[rows],
             upload_id=self.upload_id[rows],
-            sha=[self.sha[i] for i in rows.tolist()],
             file_id=self.file_id[rows],
             seq=self.seq[rows],
         )
@@ -99,10 +97,9 @@ def insert_blocks(
     batch: HistogramBatch,
     component_id: np.ndarray,
     upload_id: np.ndarray,
-    sha: list[str],
 ) -> int:
-    """Store the histograms of ``batch`` (per histogram its component, upload and hex
-    content hash) as one block per component and quantity; return the block count.
+    """Store the histograms of ``batch`` (per histogram its component and upload) as one
+    block per component and quantity; return the block count.
 
     Within a block the histograms keep their order in ``batch``."""
     n = len(batch)
@@ -111,14 +108,13 @@ def insert_blocks(
     gid = group_ids([pd.factorize(component_id)[0], pd.factorize(batch.quantity)[0]])
     order = np.argsort(gid, kind="stable")
     b = batch.take(order)
-    digests = np.frombuffer(bytes.fromhex("".join(sha[i] for i in order.tolist())), "V32")
     cut = np.r_[0, np.flatnonzero(np.diff(gid[order])) + 1, n]
     per = {name: getattr(b, name, None) for name, _ in PER_HISTOGRAM}
     per["upload_id"] = np.asarray(upload_id, dtype=np.int64)[order]
     comp = np.asarray(component_id, dtype=np.int64)[order]
     rows: list[list] = [[] for _ in BLOCK_COLUMNS]
     for lo, hi in zip(cut[:-1].tolist(), cut[1:].tolist(), strict=True):
-        values = _block_values(b, per, digests, lo, hi)
+        values = _block_values(b, per, lo, hi)
         for j, v in enumerate((file_id, int(comp[lo]), b.quantity[lo], *values)):
             rows[j].append(v)
     t = db.histogram_block
@@ -128,7 +124,7 @@ def insert_blocks(
     return len(cut) - 1
 
 
-def _block_values(b: HistogramBatch, per: dict, digests: np.ndarray, lo: int, hi: int) -> list:
+def _block_values(b: HistogramBatch, per: dict, lo: int, hi: int) -> list:
     """Column values (after file, component and quantity) of the block of histograms
     ``lo:hi`` of ``b``."""
     starts, ends = b.period_start_ns[lo:hi], b.period_end_ns[lo:hi]
@@ -155,7 +151,6 @@ def _block_values(b: HistogramBatch, per: dict, digests: np.ndarray, lo: int, hi
         *(np.ascontiguousarray(per[name][lo:hi], dtype=dt).tobytes() for name, dt in PER_HISTOGRAM),
         *(np.ascontiguousarray(edges[k], dtype="<f8").tobytes() for k in EDGES),
         np.ascontiguousarray(b.hours[h0:h1], dtype="<f8").tobytes(),
-        digests[lo:hi].tobytes(),
     ]
 
 
@@ -183,7 +178,6 @@ _READ = [
     *(name for name, _ in PER_HISTOGRAM),
     *EDGES,
     "hours",
-    "content_sha256",
 ]
 
 
@@ -193,68 +187,76 @@ def _select(*conditions):  # noqa: ANN001, ANN202
 
 
 def _decode(rows: list) -> StoredHistograms:
-    """Block rows (columns :data:`_READ`) -> one :class:`StoredHistograms`, in block order."""
-    parts: dict[str, list] = {k: [] for k in (*_READ, "seq")}
-    for row in rows:
-        r = dict(zip(_READ, row, strict=True))
-        n = int(r["n_histograms"])
-        per = {name: np.frombuffer(r[name], dtype=dt) for name, dt in PER_HISTOGRAM}
-        for name in per:
-            parts[name].append(per[name])
-        for k in EDGES:
-            run = np.frombuffer(r[k], dtype="<f8")
-            parts[k].append(np.tile(run, n) if r["bands_shared"] and n > 1 else run)
-        parts["hours"].append(np.frombuffer(r["hours"], dtype="<f8"))
-        parts["content_sha256"].append(r["content_sha256"])
-        for k in ("id", "file_id", "component_id"):
-            parts[k].append(np.full(n, int(r[k]), dtype=np.int64))
-        parts["quantity"].append(np.full(n, r["quantity"], dtype=object))
-        parts["seq"].append(np.arange(n, dtype=np.int64))
-    return _assemble(parts)
+    """Block rows (columns :data:`_READ`) -> one :class:`StoredHistograms`, in block order.
 
-
-def _cat(arrays: list, dtype) -> np.ndarray:  # noqa: ANN001
-    return np.concatenate(arrays).astype(dtype, copy=False) if arrays else np.zeros(0, dtype)
-
-
-def _assemble(parts: dict[str, list]) -> StoredHistograms:
-    n = sum(a.size for a in parts["upload_id"])
+    Each array is joined over the blocks as bytes and read with one ``frombuffer``; the
+    band edges of blocks that keep them once are repeated by index arithmetic."""
+    cols = dict(zip(_READ, zip(*rows, strict=True), strict=True)) if rows else {}
+    if not rows:
+        cols = {k: () for k in _READ}
+    n_block = np.array(cols["n_histograms"], dtype=np.int64)
+    per = {
+        name: np.frombuffer(b"".join(map(bytes, cols[name])), dtype=dt).astype(
+            np.float64 if dt == "<f8" else np.int64
+        )
+        for name, dt in PER_HISTOGRAM
+    }
+    shared = np.array(cols["bands_shared"], dtype=bool) & (n_block > 1)
+    block_of = np.repeat(np.arange(n_block.size), n_block)
+    first = np.cumsum(n_block) - n_block  # each block's first histogram
+    edges = {
+        k: _edges(
+            cols[k],
+            per["n_pressure" if k.startswith("pressure") else "n_speed"],
+            shared,
+            block_of,
+            first,
+        )
+        for k in EDGES
+    }
+    quantity = np.empty(n_block.size, dtype=object)
+    quantity[:] = list(cols["quantity"])
+    n = int(n_block.sum())
     blank = np.full(n, "", dtype=object)
     batch = HistogramBatch(
         unit=blank,
         position=blank,
-        quantity=_cat(parts["quantity"], object),
-        period_start_ns=_cat(parts["period_start_ns"], np.int64),
-        period_end_ns=_cat(parts["period_end_ns"], np.int64),
-        hour_meter_start=_cat(parts["hour_meter_start"], np.float64),
-        hour_meter_end=_cat(parts["hour_meter_end"], np.float64),
-        mean_speed_rpm=_cat(parts["mean_speed_rpm"], np.float64),
+        quantity=quantity[block_of],
+        period_start_ns=per["period_start_ns"],
+        period_end_ns=per["period_end_ns"],
+        hour_meter_start=per["hour_meter_start"],
+        hour_meter_end=per["hour_meter_end"],
+        mean_speed_rpm=per["mean_speed_rpm"],
         line=None,
-        n_pressure=_cat(parts["n_pressure"], np.int64),
-        n_speed=_cat(parts["n_speed"], np.int64),
-        **{k: _cat(parts[k], np.float64) for k in (*EDGES, "hours")},
-        oil_temp_c=_cat(parts["oil_temp_c"], np.float64),
+        n_pressure=per["n_pressure"],
+        n_speed=per["n_speed"],
+        hours=np.frombuffer(b"".join(map(bytes, cols["hours"])), dtype="<f8").astype(np.float64),
+        oil_temp_c=per["oil_temp_c"],
+        **edges,
     )
-    block = _cat(parts["id"], np.int64)
-    seq = _cat(parts["seq"], np.int64)
+    ids = np.array(cols["id"], dtype=np.int64)
     return StoredHistograms(
         batch=batch,
-        component_id=_cat(parts["component_id"], np.int64),
-        upload_id=_cat(parts["upload_id"], np.int64),
-        sha=split_digests(b"".join(parts["content_sha256"])),
-        file_id=_cat(parts["file_id"], np.int64),
-        seq=(block << 32) | seq,
+        component_id=np.array(cols["component_id"], dtype=np.int64)[block_of],
+        upload_id=per["upload_id"],
+        file_id=np.array(cols["file_id"], dtype=np.int64)[block_of],
+        seq=(ids[block_of] << 32) | (np.arange(n, dtype=np.int64) - first[block_of]),
     )
 
 
-def split_digests(blob: bytes) -> list[str]:
-    """The hex digests of a ``content_sha256`` blob (32 bytes each, end to end).
-
-    Sliced as text: a fixed-width bytes array type would drop a digest's trailing zero
-    bytes (one digest in 256 ends with one)."""
-    text = bytes(blob).hex()
-    step = 2 * DIGEST_BYTES
-    return [text[i : i + step] for i in range(0, len(text), step)]
+def _edges(blobs, counts, shared, block_of, first) -> np.ndarray:  # noqa: ANN001
+    """One band-edge array over all blocks: runs of ``counts`` values per histogram, the
+    run of a block with ``shared`` edges stored once and read for each histogram."""
+    src = np.frombuffer(b"".join(map(bytes, blobs)), dtype="<f8").astype(np.float64)
+    if not shared.any():
+        return src
+    stored = np.where(shared[block_of], 0, counts)  # values each histogram has stored
+    stored[first[shared]] = counts[first[shared]]  # a shared block's one run
+    at = np.r_[0, np.cumsum(stored)[:-1]]  # where each histogram's stored values start
+    start = np.where(shared[block_of], at[first[block_of]], at)  # where its run is read
+    total = int(counts.sum())
+    out_at = np.r_[0, np.cumsum(counts)[:-1]]
+    return src[np.arange(total) + np.repeat(start - out_at, counts)]
 
 
 def of_components(conn: Connection, component_ids: list[int]) -> StoredHistograms:

@@ -31,15 +31,14 @@ class UploadPlan:
     """Histograms and readings to store (with their component ids), or the problems.
 
     ``batch`` holds the histograms to store; per histogram of it, ``component_id``,
-    ``unit_id``, its content hash ``sha`` and ``upload``, the number of its upload (one
-    per unit, period and hour meters, numbered in order of first appearance).
+    ``unit_id`` and ``upload``, the number of its upload (one per unit, period and hour
+    meters, numbered in order of first appearance).
     ``upload_first`` is the first histogram of each upload.
     """
 
     batch: HistogramBatch = field(default_factory=lambda: HistogramBatch.from_histograms([]))
     component_id: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     unit_id: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
-    sha: list[str] = field(default_factory=list)
     upload: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     upload_first: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     readings: list[tuple[Reading, int]] = field(default_factory=list)
@@ -56,7 +55,6 @@ class UploadPlan:
         """Keep only the histograms ``rows`` (positions, ascending)."""
         self.batch = self.batch.take(rows)
         self.component_id, self.unit_id = self.component_id[rows], self.unit_id[rows]
-        self.sha = [self.sha[i] for i in rows.tolist()]
 
 
 DIGEST_ORDER = ("pressure_low_bar", "pressure_high_bar", "speed_low_rpm", "speed_high_rpm", "hours")
@@ -125,7 +123,6 @@ def _plan_upload(conn: Connection, parsed: ParsedFile) -> UploadPlan:
         return plan
     plan.component_unit.update(zip(comp.tolist(), unit.tolist(), strict=True))
     plan.batch, plan.component_id, plan.unit_id = batch, comp, unit
-    plan.sha = batch_shas(batch)
     _check_overlaps(conn, plan, name)
     _number_uploads(plan)
     _check_hour_meters(conn, plan, name)
@@ -227,7 +224,7 @@ def _new_histogram_frame(plan: UploadPlan, rows: np.ndarray) -> pd.DataFrame:
             "quantity": b.quantity[rows],
             "start": _utc(b.period_start_ns[rows]),
             "end": _utc(b.period_end_ns[rows]),
-            "sha": [plan.sha[i] for i in rows.tolist()],
+            "sha": batch_shas(b.take(rows)),
             "line": [lines[i] for i in rows.tolist()],
             "idx": rows,
         }
@@ -250,7 +247,7 @@ def _stored_histograms(conn: Connection, new: pd.DataFrame) -> pd.DataFrame:
             "quantity": b.quantity,
             "start": _utc(b.period_start_ns),
             "end": _utc(b.period_end_ns),
-            "sha": stored.sha,
+            "sha": batch_shas(b),
             "upload_id": stored.upload_id,
             "file": [names[i] for i in stored.file_id.tolist()],
         }

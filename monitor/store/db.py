@@ -215,7 +215,6 @@ histogram_block = Table(
     Column("speed_low_rpm", LargeBinary, nullable=False),
     Column("speed_high_rpm", LargeBinary, nullable=False),
     Column("hours", LargeBinary, nullable=False),  # float64 runs (a matrix row by row)
-    Column("content_sha256", LargeBinary, nullable=False),  # 32-byte digest per histogram
     Index("ix_histogram_block_first", "component_id", "quantity", "first_start", unique=True),
     Index("ix_histogram_block_last", "component_id", "quantity", "last_end"),
 )

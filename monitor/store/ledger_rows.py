@@ -169,7 +169,7 @@ def _write_upload(conn: Connection, file_id: int, plan, compute: Compute) -> Non
     every = batch_from_columns(
         plan.batch, np.arange(plan.n_histograms), plan.component_id, upload_ids
     )
-    blocks.insert_blocks(conn, file_id, plan.batch, plan.component_id, upload_ids, plan.sha)
+    blocks.insert_blocks(conn, file_id, plan.batch, plan.component_id, upload_ids)
     _insert_readings(conn, file_id, plan)
     chosen = _select_for_ledger(plan, upload_ids, set())
     if not chosen.size:

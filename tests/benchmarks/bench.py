@@ -277,9 +277,7 @@ def _build_uploads(engine, by_unit: dict, days: int, rng) -> int:  # noqa: ANN00
                 speed_high_rpm=np.zeros(0),
                 hours=np.concatenate(hrs),
             )
-            digest = rng.bytes(32 * k).hex()
-            shas = [digest[64 * i : 64 * (i + 1)] for i in range(k)]
-            blocks.insert_blocks(conn, file_id, batch, np.array(comp), np.array(upl), shas)
+            blocks.insert_blocks(conn, file_id, batch, np.array(comp), np.array(upl))
             n += k
     return n
 

@@ -14,6 +14,10 @@ whole processes:
   into a fresh SQLite file, one SQL aggregate for the Palmgren-Miner sum per loop;
 - ``drivespan ingest`` of the file into a fresh copy of the template store.
 
+With ``--before DIR`` (a checkout of an earlier commit, e.g. made by ``git worktree add``)
+each round also runs that checkout's ``drivespan ingest`` into its own template store, so
+before and after are measured under the same load.
+
 Per case it prints the median and lowest wall time, the median CPU time (user + system,
 ``os.wait4``) and peak resident memory, and the ratios of the medians. Targets: ingest
 at most 3x ``read_csv`` and at least 2.5x faster than ``diy``.
@@ -126,16 +130,24 @@ def export_csv(units: int, days: int, n_bands: int, seed: int = 16) -> bytes:
     return text.encode()
 
 
+def _env(checkout: Path) -> dict:
+    """The environment that runs ``checkout``'s code."""
+    env = dict(os.environ)
+    env["PYTHONPATH"] = os.pathsep.join(x for x in (str(checkout), env.get("PYTHONPATH")) if x)
+    env.pop("DRIVESPAN_DB", None)
+    return env
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--units", type=int, default=200)
     ap.add_argument("--days", type=int, default=120)
     ap.add_argument("--rounds", type=int, default=5)
     ap.add_argument("--bands", type=int, nargs="+", default=[12, 8])
+    ap.add_argument("--before", type=Path, help="an earlier checkout to time alongside")
     args = ap.parse_args()
-    env = dict(os.environ)
-    env["PYTHONPATH"] = os.pathsep.join(x for x in (str(ROOT), env.get("PYTHONPATH")) if x)
-    env.pop("DRIVESPAN_DB", None)
+    env = _env(ROOT)
+    env_before = _env(args.before) if args.before else None
     ds = drivespan()
     load = os.getloadavg()[0]
     print(f"machine: nproc={os.cpu_count()}, python {sys.version.split()[0]}, load {load:.2f}")
@@ -144,11 +156,14 @@ def main() -> None:
         (tmpd / "fleet.yaml").write_text(registry_yaml(args.units))
         template = tmpd / "template.db"
         url = f"sqlite:///{template}"
-        for cmd in (
-            ["init", "--db", url],
-            ["fleet", "import", str(tmpd / "fleet.yaml"), "--db", url],
-        ):
+        fleet = str(tmpd / "fleet.yaml")
+        for cmd in (["init", "--db", url], ["fleet", "import", fleet, "--db", url]):
             subprocess.run([*ds, *cmd], check=True, env=env, capture_output=True)
+        old_template = tmpd / "template-before.db"
+        if env_before:
+            url_b = f"sqlite:///{old_template}"
+            for cmd in (["init", "--db", url_b], ["fleet", "import", fleet, "--db", url_b]):
+                subprocess.run([*ds, *cmd], check=True, env=env_before, capture_output=True)
         (tmpd / "diy.py").write_text(DIY)
         for n_bands in args.bands:
             csv = tmpd / f"export-{n_bands}.csv"
@@ -159,18 +174,25 @@ def main() -> None:
                 f"{n_rows:,} bands, {n_rows // n_bands:,} histograms, {args.units} units"
             )
             times: dict[str, list] = {"read_csv": [], "diy": [], "ingest": []}
+            if env_before:
+                times["before"] = []
             for r in range(args.rounds):
                 store, diy_db = tmpd / f"run{r}.db", tmpd / f"diy{r}.db"
+                old_store = tmpd / f"before{r}.db"
                 shutil.copyfile(template, store)
                 cases = {
-                    "read_csv": [sys.executable, "-c", READ_CSV, str(csv)],
-                    "diy": [sys.executable, str(tmpd / "diy.py"), str(csv), str(diy_db)],
-                    "ingest": [*ds, "ingest", str(csv), "--db", f"sqlite:///{store}"],
+                    "read_csv": ([sys.executable, "-c", READ_CSV, str(csv)], env),
+                    "diy": ([sys.executable, str(tmpd / "diy.py"), str(csv), str(diy_db)], env),
+                    "ingest": ([*ds, "ingest", str(csv), "--db", f"sqlite:///{store}"], env),
                 }
-                for name, cmd in cases.items():
-                    times[name].append(run_once(cmd, env))
-                store.unlink()
-                diy_db.unlink()
+                if env_before:
+                    shutil.copyfile(old_template, old_store)
+                    url_b = f"sqlite:///{old_store}"
+                    cases["before"] = ([*ds, "ingest", str(csv), "--db", url_b], env_before)
+                for name, (cmd, e) in cases.items():
+                    times[name].append(run_once(cmd, e))
+                for f in (store, diy_db, old_store):
+                    f.unlink(missing_ok=True)
             med = {k: statistics.median(w for w, _, _ in v) for k, v in times.items()}
             for k, v in times.items():
                 print(
@@ -182,6 +204,12 @@ def main() -> None:
                 f"  ingest / read_csv {med['ingest'] / med['read_csv']:.2f}x (target <= 3x); "
                 f"diy / ingest {med['diy'] / med['ingest']:.2f}x (target >= 2.5x)"
             )
+            if env_before:
+                print(
+                    f"  before / ingest {med['before'] / med['ingest']:.2f}x; before / "
+                    f"read_csv {med['before'] / med['read_csv']:.2f}x, diy / before "
+                    f"{med['diy'] / med['before']:.2f}x"
+                )
 
 
 if __name__ == "__main__":
