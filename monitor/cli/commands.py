@@ -33,8 +33,17 @@ def init(db_url: str) -> None:
 
     Example: drivespan init --db sqlite:///fleet.db
     """
-    open_db(db_url, create=True).dispose()
+    engine = open_db(db_url, create=True)
+    try:
+        oils = usecases.complete_oil_viscosities(engine)
+    finally:
+        engine.dispose()
     click.echo(f"schema is up to date in {usecases.display_url(db_url)}")
+    if oils:
+        from monitor.domain.vocabulary import plural
+
+        what = plural(oils, "oil")
+        click.echo(f"stored the 100 degC viscosity of {what} (from the viscosity index)")
 
 
 @main.group()
