@@ -29,7 +29,8 @@ from monitor.cli.common import (
 @db_option
 @domain_errors
 def init(db_url: str) -> None:
-    """Create or upgrade the database schema.
+    """Create or upgrade the database schema (and store what an older store lacks: the
+    100 degC viscosity of an oil given by grade and viscosity index).
 
     Example: drivespan init --db sqlite:///fleet.db
     """
