@@ -59,15 +59,16 @@ def _stored_nu100(url: str) -> float | None:
 
 
 @pytest.fixture
-def store(sqlite_url) -> str:
-    """The sample fleet (oil by ISO VG 46 and VI 100) with case-drain readings."""
-    engine = usecases.init_db(sqlite_url)
+def store(db_url) -> str:
+    """The sample fleet (oil by ISO VG 46 and VI 100) with case-drain readings, on SQLite
+    and on PostgreSQL."""
+    engine = usecases.init_db(db_url)
     usecases.import_registry(engine, (DATA / "fleet.yaml").read_bytes(), "fleet.yaml")
     for name in ("hist_pressure.csv", "readings.csv"):
         res = usecases.upload(engine, (DATA / name).read_bytes(), name)
         assert res.status == usecases.ACCEPTED, res.problems
     engine.dispose()
-    return sqlite_url
+    return db_url
 
 
 def test_registry_import_stores_the_oils_nu100(store):
