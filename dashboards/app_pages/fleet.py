@@ -61,7 +61,8 @@ if c2.button("Open unit", key="f_open_go", disabled=not tags):
     st.switch_page("app_pages/unit.py", query_params={"unit": pick})
 c3.download_button(
     "Download this table (CSV)",
-    data=outputs.frame_to_csv_bytes(ui.export_frame(shown)),
+    # made when clicked, not in every run of the page (and not sent to every session)
+    data=lambda shown=shown: outputs.frame_to_csv_bytes(ui.export_frame(shown)),
     file_name=f"drivespan-fleet-{ctx.as_of.isoformat()}.csv",
     mime="text/csv",
     key="f_csv",
