@@ -146,10 +146,14 @@ def week_labels(as_of: date, weeks: int) -> list[str]:
     return [ALREADY_DUE] + [f"{d:%d %b %Y}" for d in days]
 
 
+DUE_WEEKS_COLUMNS = ("unit", "position", "due_date", "remaining_h", "status")
+"""The only columns of the fleet frame that :func:`due_weeks_figure` reads."""
+
+
 def due_weeks_figure(fleet: pd.DataFrame, as_of: date, weeks: int = 12) -> go.Figure:
     """Components falling due per week over the next ``weeks`` weeks, stacked by status.
 
-    ``fleet`` needs the columns unit, position, due_date, remaining_h and status. The
+    ``fleet`` needs the columns :data:`DUE_WEEKS_COLUMNS` (and reads no other). The
     first bar collects everything already due (no hours left or due date passed); each
     status has its own colour, fill pattern and name in the hover text and legend.
     """

@@ -102,6 +102,11 @@ def test_fleet_unit_upload_plan_settings_in_chromium(page, server, demo_store):
     assert rows[1].startswith(fx.MOST_URGENT), rows[:3]  # row 0 is the heading
     assert "estimates" in page.locator("[data-testid='stSidebar']").inner_text()
     page.screenshot(path=str(SHOTS / "fleet.png"), full_page=True)
+    with page.expect_download() as got:  # the CSV is made when the button is clicked
+        page.get_by_role("button", name="Download this table (CSV)").click()
+    csv_lines = Path(got.value.path()).read_text(encoding="utf-8").splitlines()
+    assert csv_lines[0].startswith("unit,") and fx.MOST_URGENT in csv_lines[1], csv_lines[:2]
+    assert len(csv_lines) == 1 + _counts(demo_store)["component"]  # every drive, no filter
 
     page.get_by_role("button", name="Open unit").click()
     page.wait_for_url(f"**/unit?unit={fx.MOST_URGENT}")

@@ -273,3 +273,22 @@ def test_launch_command_sets_address_port_upload_limit_and_no_usage_stats():
     assert launch.environment("sqlite:///x.db")["DRIVESPAN_DB"] == "sqlite:///x.db"
     with pytest.raises(ValueError, match="port must be between"):
         launch.command(port=0)
+
+
+def test_due_weeks_figure_is_built_once_per_fleet_content():
+    # shared by every session showing the same fleet, rebuilt when what it shows changes
+    from dashboards import charts, data
+    from tests.test_charts import AS_OF, fleet_frame
+
+    data._due_weeks_figure.clear()
+    f = fleet_frame()
+    first = data.due_weeks_figure(f, AS_OF, 4)
+    assert first.to_json() == charts.due_weeks_figure(f, AS_OF, weeks=4).to_json()
+    assert data.due_weeks_figure(f.copy(), AS_OF, 4) is first  # another session's copy
+    assert data.due_weeks_figure(f.assign(site="x"), AS_OF, 4) is first  # a column it ignores
+    moved = f.assign(status=f["status"].iloc[::-1].to_numpy())  # new data, e.g. an upload
+    other = data.due_weeks_figure(moved, AS_OF, 4)
+    assert other is not first
+    assert other.to_json() == charts.due_weeks_figure(moved, AS_OF, weeks=4).to_json()
+    assert data.due_weeks_figure(f, AS_OF, 12) is not first
+    assert data.due_weeks_figure(f.iloc[:3], AS_OF, 4) is not first

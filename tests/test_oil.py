@@ -96,6 +96,23 @@ def test_oil_line_from_spec_forms_agree():
     assert (a3, b3) == pytest.approx((a4, b4))
 
 
+@pytest.mark.parametrize("vg, vi", [(32, 95.0), (46, 100.0), (68, 140.0), (460, 60.0)])
+def test_stored_nu100_gives_the_same_line(vg, vi):
+    # the registry import stores line_nu100_mm2s with the oil; a status passes it back as
+    # nu100_mm2s and must get bit for bit the line it got by solving for it
+    nu100 = oil.line_nu100_mm2s(iso_vg=vg, viscosity_index=vi)
+    assert nu100 == oil.nu100_for_viscosity_index(float(vg), vi)
+    solved = oil.oil_line_from_spec(iso_vg=vg, viscosity_index=vi)
+    assert oil.oil_line_from_spec(iso_vg=vg, viscosity_index=vi, nu100_mm2s=nu100) == solved
+
+
+def test_line_nu100_given_missing_or_unreachable():
+    assert oil.line_nu100_mm2s(nu40_mm2s=46.0, nu100_mm2s=7) == 7.0
+    assert oil.line_nu100_mm2s(iso_vg=46) is None
+    assert oil.line_nu100_mm2s(viscosity_index=100) is None
+    assert oil.line_nu100_mm2s(iso_vg=46, viscosity_index=2000.0) is None
+
+
 def test_oil_line_from_spec_errors():
     with pytest.raises(ValueError, match="give iso_vg or nu40_mm2s"):
         oil.oil_line_from_spec(viscosity_index=100)

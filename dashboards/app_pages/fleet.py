@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboards import charts, data, ui
+from dashboards import data, ui
 from monitor.usecases import outputs
 
 ctx = ui.context()
@@ -26,7 +26,7 @@ st.html(ui.status_chips(fleet))
 weeks = st.segmented_control(
     "Look ahead [weeks]", [4, 12, 26, 52], default=12, key="f_weeks", required=True
 )
-st.plotly_chart(charts.due_weeks_figure(fleet, ctx.as_of, weeks=weeks or 12), key="due_weeks")
+st.plotly_chart(data.due_weeks_figure(fleet, ctx.as_of, weeks or 12), key="due_weeks")
 
 st.subheader("Ranking")
 f1, f2, f3, f4, f5 = st.columns([1.2, 1, 1, 1, 1.2])
@@ -61,7 +61,8 @@ if c2.button("Open unit", key="f_open_go", disabled=not tags):
     st.switch_page("app_pages/unit.py", query_params={"unit": pick})
 c3.download_button(
     "Download this table (CSV)",
-    data=outputs.frame_to_csv_bytes(ui.export_frame(shown)),
+    # made when clicked, not in every run of the page (and not sent to every session)
+    data=lambda shown=shown: outputs.frame_to_csv_bytes(ui.export_frame(shown)),
     file_name=f"drivespan-fleet-{ctx.as_of.isoformat()}.csv",
     mime="text/csv",
     key="f_csv",

@@ -29,12 +29,22 @@ from monitor.cli.common import (
 @db_option
 @domain_errors
 def init(db_url: str) -> None:
-    """Create or upgrade the database schema.
+    """Create or upgrade the database schema (and store what an older store lacks: the
+    100 degC viscosity of an oil given by grade and viscosity index).
 
     Example: drivespan init --db sqlite:///fleet.db
     """
-    open_db(db_url, create=True).dispose()
+    engine = open_db(db_url, create=True)
+    try:
+        oils = usecases.complete_oil_viscosities(engine)
+    finally:
+        engine.dispose()
     click.echo(f"schema is up to date in {usecases.display_url(db_url)}")
+    if oils:
+        from monitor.domain.vocabulary import plural
+
+        what = plural(oils, "oil")
+        click.echo(f"stored the 100 degC viscosity of {what} (from the viscosity index)")
 
 
 @main.group()

@@ -86,13 +86,20 @@ def inversion_counts(n: int, ties: tuple[int, ...] = ()) -> tuple[int, ...]:
         raise ValueError(f"n must be a whole number from 1 to {EXACT_MAX_N}, got {n!r}")
     if any(t < 2 for t in ties) or sum(ties) > n:
         raise ValueError(f"ties must be group sizes >= 2 adding up to at most n, got {ties!r}")
-    poly = [1]
-    for j in range(2, n + 1):
-        poly = _times_q_integer(poly, j)
+    poly = list(_q_factorial(n))
     for t in ties:
         for j in range(2, t + 1):
             poly = _over_q_integer(poly, j)
     return tuple(poly)
+
+
+@functools.lru_cache(maxsize=EXACT_MAX_N)
+def _q_factorial(n: int) -> tuple[int, ...]:
+    """Coefficients of ``[n]_q! = [1]_q [2]_q ... [n]_q``, each from the one before (the
+    status asks for many n; built up once, not from 1 for every n)."""
+    if n <= 1:
+        return (1,)
+    return tuple(_times_q_integer(list(_q_factorial(n - 1)), n))
 
 
 def inversion_cdf(n: int, ties: tuple[int, ...] = ()) -> np.ndarray:

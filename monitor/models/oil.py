@@ -360,6 +360,37 @@ def nu100_for_viscosity_index(nu40_mm2s: float, viscosity_index_target: float) -
     return float(brentq(gap, lo, hi, xtol=1e-10, rtol=1e-12))
 
 
+def line_nu100_mm2s(
+    iso_vg: float | None = None,
+    viscosity_index: float | None = None,
+    nu40_mm2s: float | None = None,
+    nu100_mm2s: float | None = None,
+) -> float | None:
+    """The 100 degC viscosity [mm2/s] that :func:`oil_line_from_spec` puts an oil's line
+    through: the given one, else the one its viscosity index gives at its 40 degC
+    viscosity (:func:`nu100_for_viscosity_index`).
+
+    Parameters are those of :func:`oil_line_from_spec`. Returns None when neither is
+    known or the index cannot be reached; the line then fails as it would without this.
+
+    Notes
+    -----
+    Found once when a registry is imported and stored with the oil, so that a status
+    does not solve for it (and load ``scipy.optimize``) in every process. Passing the
+    stored value back as ``nu100_mm2s`` gives :func:`oil_line_from_spec` the same float,
+    so the same line.
+    """
+    if nu100_mm2s is not None:
+        return float(nu100_mm2s)
+    nu40 = nu40_mm2s if nu40_mm2s is not None else iso_vg
+    if nu40 is None or viscosity_index is None:
+        return None
+    try:
+        return nu100_for_viscosity_index(float(nu40), viscosity_index)
+    except ValueError:
+        return None
+
+
 def oil_line_from_spec(
     iso_vg: float | None = None,
     viscosity_index: float | None = None,

@@ -326,6 +326,23 @@ def any_unit(conn: Connection) -> bool:
     return conn.execute(select(db.unit.c.id).limit(1)).first() is not None
 
 
+def oils_without_nu100(conn: Connection) -> list[OilSpec]:
+    """Oils given by grade and viscosity index whose 100 degC viscosity is not stored yet
+    (imported before it was stored with the oil)."""
+    o = db.oil
+    q = select(o).where(o.c.nu100_mm2s.is_(None), o.c.viscosity_index.is_not(None))
+    fields = [f.name for f in dataclasses.fields(OilSpec)]
+    return [OilSpec(**{k: r[k] for k in fields}) for r in conn.execute(q).mappings()]
+
+
+def set_oil_nu100(conn: Connection, name: str, nu100_mm2s: float) -> None:
+    """Store the 100 degC viscosity of the oil ``name`` where none is stored yet."""
+    o = db.oil
+    conn.execute(
+        update(o).where(o.c.name == name, o.c.nu100_mm2s.is_(None)).values(nu100_mm2s=nu100_mm2s)
+    )
+
+
 def unit_id(conn: Connection, tag: str) -> int | None:
     """The id of the unit with this tag, or None."""
     return conn.execute(select(db.unit.c.id).where(db.unit.c.tag == tag)).scalar()

@@ -41,6 +41,7 @@ _WHERE = {
     "SERVICE_REASONS": "events",
     "add_service_event": "events",
     "REGISTRY_SUFFIXES": "registry",
+    "complete_oil_viscosities": "registry",
     "has_registry": "registry",
     "import_registry": "registry",
     "show_registry": "registry",
