@@ -38,9 +38,9 @@ class Group:
 class Batch:
     """One histogram per (upload, component), as arrays of equal length N.
 
-    ``period_end`` holds the upload's period end per row, either as datetimes
-    (ingest, which also gives them as ``period_end_ns``) or as the database's own
-    stored value (recompute reads it raw and writes it back unchanged).
+    ``period_end`` holds the upload's period end per row as UTC datetimes, and
+    ``period_end_ns`` the same ends as int64 ns since the epoch (ingest and recompute
+    both build batches from columns, :func:`batch_from_columns`).
     """
 
     component_id: np.ndarray
@@ -49,7 +49,7 @@ class Batch:
     hour_meter_start: np.ndarray
     hour_meter_end: np.ndarray
     groups: list[Group]
-    period_end_ns: np.ndarray | None = None  # ingest: the same ends [ns since the epoch]
+    period_end_ns: np.ndarray | None = None  # the same ends [ns since the epoch]
     oil_temp_c: np.ndarray | None = None  # the upload's period mean oil temperature [degC]
 
     def __post_init__(self) -> None:

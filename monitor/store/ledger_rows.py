@@ -24,7 +24,7 @@ from monitor.domain.records import QUANTITY_PRESSURE_SPEED
 from monitor.domain.specs import ComponentModelSpec
 from monitor.ledger.batch import Batch, ComponentTable, batch_from_columns
 from monitor.store import blocks, db, queries, rating_changes
-from monitor.store.bulk import bind_times, bind_values, insert_columns, ledger_choice, update_rows
+from monitor.store.bulk import bind_times, insert_columns, ledger_choice, update_rows
 
 CUM_COLUMNS = {
     "cum_meter_hours": "meter_hours",
@@ -117,10 +117,7 @@ def _running_totals(comp: np.ndarray, values: dict[str, np.ndarray]) -> dict:
 
 def _ledger_columns(conn: Connection, batch: Batch, values: dict, order: np.ndarray) -> list[list]:
     """Columns of the ledger rows in ``order``."""
-    if batch.period_end_ns is not None:
-        ends = bind_times(conn, db.ledger, "period_end", batch.period_end_ns[order])
-    else:
-        ends = bind_values(conn, db.ledger, "period_end", [batch.period_end[i] for i in order])
+    ends = bind_times(conn, db.ledger, "period_end", batch.period_end_ns[order])
     return [
         batch.upload_id[order].tolist(),
         batch.component_id[order].tolist(),
@@ -249,9 +246,6 @@ def _append_ledger(conn: Connection, batch: Batch, table: ComponentTable, comput
     values["hour_meter_end"] = batch.hour_meter_end
     values["meter_hours"] = batch.hour_meter_end - batch.hour_meter_start
     ends_ns = batch.period_end_ns
-    if ends_ns is None:
-        ends = pd.to_datetime(pd.Series(batch.period_end), utc=True)
-        ends_ns = ends.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
     order = _ordered(batch, ends_ns)
     comp = batch.component_id[order]
     since = pd.Series(ends_ns[order]).groupby(comp).min()
